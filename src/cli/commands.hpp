@@ -1,0 +1,26 @@
+// commands.hpp (CLI-private) -- each subcommand registers itself on the CLI11 app.
+//
+// A subcommand parses into an options struct, validates it, calls the library and prints. It reports
+// failure by throwing (zeeline errors carry the file/keyword/token); main() turns exceptions into the
+// documented exit codes (docs/cli.md):
+//   0 success, 1 bad input data (file, level, catalog, FITS), 2 bad command line or option value,
+//   3 output could not be written (or would overwrite without --overwrite), 130 interrupted.
+#pragma once
+
+#include <stdexcept>
+#include <string>
+
+#include <CLI/CLI.hpp>
+
+namespace zeeline::cli {
+
+/// Thrown for output problems (exit code 3).
+class OutputError : public std::runtime_error {
+ public:
+  using std::runtime_error::runtime_error;
+};
+
+void AddLandeCommand(CLI::App& app);
+void AddLineCommand(CLI::App& app);
+
+}  // namespace zeeline::cli
