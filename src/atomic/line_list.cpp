@@ -20,12 +20,22 @@ std::string Trim(const std::string& s) {
   return s.substr(b, e - b + 1);
 }
 
+// Split on commas that are not inside parentheses, so "jK(2P3/2,p,5/2,2)" stays one cell.
 std::vector<std::string> SplitCells(const std::string& line) {
   std::vector<std::string> cells;
-  std::stringstream ss(line);
   std::string cell;
-  while (std::getline(ss, cell, ',')) cells.push_back(Trim(cell));
-  if (!line.empty() && line.back() == ',') cells.emplace_back();
+  int depth = 0;
+  for (char c : line) {
+    if (c == '(') ++depth;
+    if (c == ')' && depth > 0) --depth;
+    if (c == ',' && depth == 0) {
+      cells.push_back(Trim(cell));
+      cell.clear();
+    } else {
+      cell += c;
+    }
+  }
+  cells.push_back(Trim(cell));
   return cells;
 }
 
