@@ -1,0 +1,45 @@
+// zeeline/maps/pixel_spectrum.hpp -- one pixel's Stokes spectra as seen by the field estimators, and the
+// continuum/noise helpers every estimator shares.
+//
+// Spectra are non-owning views (pointer + length) so the estimators run straight on a tile's buffer
+// without copies. Q, U, V may be null when the cube lacks them (an I+V cube still gives BLOS).
+// The continuum level Ic is the mean of I over the continuum samples; the noise of each Stokes
+// parameter is the sample standard deviation over the same samples (of Q, U, V about zero after removing
+// their mean, of I about its mean), unless the caller gives a noise level (in units of Ic).
+#pragma once
+
+#include <cstddef>
+#include <string>
+#include <vector>
+
+namespace zeeline {
+
+struct PixelSpectrum {
+  const double* wavelength_nm = nullptr;  ///< strictly increasing
+  std::size_t n = 0;
+  const double* I = nullptr;
+  const double* Q = nullptr;  ///< may be null
+  const double* U = nullptr;  ///< may be null
+  const double* V = nullptr;  ///< may be null
+};
+
+/// Continuum level and per-Stokes noise (absolute units, same as the data).
+struct ContinuumEstimate {
+  double continuum = 0.0;
+  double noise_I = 0.0, noise_Q = 0.0, noise_U = 0.0, noise_V = 0.0;
+  std::size_t samples = 0;  ///< continuum samples used
+};
+
+/// Sample indices whose wavelength lies in [lo_nm, hi_nm] (inclusive).
+std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_t n, double lo_nm, double hi_nm);
+
+/// Continuum samples: all samples farther than `exclude_halfwidth_nm` from `centre_nm`.
+std::vector<std::size_t> ContinuumSamples(const double* wavelength_nm, std::size_t n, double centre_nm,
+                                          double exclude_halfwidth_nm);
+
+/// Continuum level and noise from the given samples. `given_noise_rel` > 0 overrides the measured noise
+/// for Q, U, V (and I) with given_noise_rel * continuum.
+ContinuumEstimate EstimateContinuum(const PixelSpectrum& s, const std::vector<std::size_t>& continuum_samples,
+                                    double given_noise_rel = 0.0);
+
+}  // namespace zeeline
