@@ -22,5 +22,8 @@ class OutputError : public std::runtime_error {
 
 void AddLandeCommand(CLI::App& app);
 void AddLineCommand(CLI::App& app);
+void AddProfileCommand(CLI::App& app);
+/// argc/argv are recorded in the output provenance.
+void AddMapCommand(CLI::App& app, int argc, char** argv);
 
 }  // namespace zeeline::cli

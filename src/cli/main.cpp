@@ -16,6 +16,8 @@ int main(int argc, char** argv) {
 
   zeeline::cli::AddLandeCommand(app);
   zeeline::cli::AddLineCommand(app);
+  zeeline::cli::AddProfileCommand(app);
+  zeeline::cli::AddMapCommand(app, argc, argv);
 
   try {
     app.parse(argc, argv);

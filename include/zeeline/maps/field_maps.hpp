@@ -1,0 +1,101 @@
+// zeeline/maps/field_maps.hpp -- field maps from a Stokes cube: per-pixel method choice, streaming over
+// tiles, threads, checkpoints.
+//
+// For every spatial pixel the cube's spectra go through the estimators of this area:
+//   wfa    weak-field approximation (weak_field.hpp): BLOS, BTRANS, AZIMUTH (+ VLOS from the centroid)
+//   cog    centre of gravity (centre_of_gravity.hpp): BLOS, VLOS
+//   split  resolved splitting (full_splitting.hpp): FIELD, VLOS; BLOS from cog; INCLINATION from both;
+//          AZIMUTH from the linear-polarisation regression of the weak-field fit (angle only)
+//   auto   per pixel: r = g_eff Delta lambda_B(|B_wfa|) / w, with |B_wfa| the weak-field strength and
+//          w the 1/e half-width of the line (from the second moment of the absorption). r < weak_ratio
+//          (default 0.3) -> wfa; otherwise the splitting fit runs and, if the sigma groups are resolved,
+//          split; otherwise cog for BLOS/VLOS with the weak-field transverse field flagged OUT_OF_RANGE.
+// Every pixel gets a METHOD code (map_method.hpp) and QUALITY bits (io/quality_flags.hpp): a pixel with
+// NaN/Inf input gets NaN maps and NONFINITE_INPUT, and its neighbours are untouched; a pixel whose |BLOS|
+// and BTRANS are both below detection_sigma times their errors gets LOW_SIGNAL; an estimate outside its
+// method's validity gets OUT_OF_RANGE.
+// The cube is read tile by tile (io/cube_reader.hpp), so memory holds one tile plus the 2-D maps.
+// Checkpoints: after every tile the finished rows can be saved (checkpoint_path) and a later run with
+// resume = true continues from them, giving the same maps as an uninterrupted run (the computation of a
+// pixel depends on that pixel only).
+#pragma once
+
+#include <atomic>
+#include <cstdint>
+#include <functional>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "zeeline/atomic/zeeman_pattern.hpp"
+#include "zeeline/io/cube_reader.hpp"
+#include "zeeline/maps/map_method.hpp"
+#include "zeeline/maps/weak_field.hpp"
+
+namespace zeeline {
+
+/// The maps a run produces, in the order they are written.
+enum MapSlot : int {
+  kSlotField,
+  kSlotFieldErr,
+  kSlotInclination,
+  kSlotInclinationErr,
+  kSlotAzimuth,
+  kSlotAzimuthErr,
+  kSlotBlos,
+  kSlotBlosErr,
+  kSlotBtrans,
+  kSlotBtransErr,
+  kSlotVlos,
+  kSlotVlosErr,
+  kSlotChi2,
+  kSlotCount
+};
+/// EXTNAME of a slot ("FIELD", "FIELD_ERR", ...).
+const char* MapSlotName(int slot);
+
+struct FieldMapOptions {
+  MapMethod method = MapMethod::kAuto;
+  double rest_wavelength_nm = 0.0;   ///< required, in the frame of the data's wavelength grid
+  ZeemanPattern pattern;             ///< g_eff and G of the line (pattern.g_eff must be non-zero)
+  double window_halfwidth_nm = 0.0;  ///< fit window around the rest wavelength; 0 = from the line width
+  double continuum_exclude_nm = 0.0; ///< continuum = samples farther than this from the line; 0 = auto
+  double noise_rel = 0.0;            ///< noise in units of the continuum; 0 = measured per pixel
+  TransverseRegion transverse = TransverseRegion::kCore;
+  double core_halfwidth_nm = 0.0;    ///< weak-field transverse core region (0 = whole window)
+  double wing_start_nm = 0.0;        ///< weak-field transverse wing region start
+  double weak_ratio = 0.3;           ///< auto: splitting/width below which the weak-field answer is used
+  double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
+  double detection_sigma = 3.0;      ///< LOW_SIGNAL below this many sigma in both BLOS and BTRANS
+  bool need_transverse = false;      ///< refuse cubes without Q and U (the caller asked for BTRANS)
+  int threads = 0;                   ///< 0 = all available (OpenMP)
+
+  std::string Validate() const;
+};
+
+struct FieldMaps {
+  long nx = 0, ny = 0;
+  std::vector<std::vector<float>> slots;  ///< kSlotCount maps of nx*ny (y-major: y * nx + x)
+  std::vector<std::int16_t> method;       ///< MapMethod code per pixel
+  std::vector<std::int32_t> quality;      ///< QualityBit flags per pixel
+  bool has_transverse = false;            ///< the cube had Q and U
+  long rows_done = 0;
+  std::int64_t method_counts[5] = {0, 0, 0, 0, 0};  ///< pixels per MapMethod code
+};
+
+struct FieldMapRunOptions {
+  std::string checkpoint_path;  ///< empty = no checkpoints
+  bool resume = false;          ///< continue from checkpoint_path if it exists and matches
+  std::string fingerprint;      ///< identifies input + options; a checkpoint with another one is refused
+  const std::atomic<bool>* cancel = nullptr;           ///< checked between tiles
+  std::function<void(long rows_done, long rows)> progress;  ///< called after each tile
+};
+
+enum class RunStatus { kComplete, kCancelled };
+
+/// Runs the estimators over the whole cube. Throws OptionError for invalid options, FitsError for
+/// read problems and for a cube that lacks what the options need (naming the file and the Stokes axis).
+RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,
+                           FieldMaps& maps);
+
+}  // namespace zeeline

@@ -1,0 +1,58 @@
+#include "cli/line_selection.hpp"
+
+#include <cstdio>
+
+#include "zeeline/atomic/line_list.hpp"
+#include "zeeline/core/errors.hpp"
+#include "zeeline/core/units.hpp"
+
+namespace zeeline::cli {
+
+void AddLineSelectionOptions(CLI::App* cmd, LineSelectionArgs& a, const std::string& frame_help) {
+  cmd->add_option("--lower", a.lower, "lower level, e.g. 5P1, 2P3/2, jK(2P3/2,s,3/2,2)");
+  cmd->add_option("--upper", a.upper, "upper level, e.g. 5D0");
+  cmd->add_option("--wavelength", a.wavelength, "rest wavelength with unit, e.g. 630.2494nm");
+  cmd->add_option("--line", a.line, "line name in the --catalog line list");
+  cmd->add_option("--catalog", a.catalog, "line list file (docs/line_list.md)");
+  cmd->add_option("--frame", a.frame, "air or vacuum: frame of --wavelength; " + frame_help);
+  cmd->add_option("--gs", a.gs, "electron spin g-factor (default CODATA 2.00231930436; 2 = textbook)");
+}
+
+SelectedLine ResolveLine(const LineSelectionArgs& a) {
+  LandeOptions lande;
+  if (a.gs) lande.g_spin = *a.gs;
+  const std::string bad = lande.Validate();
+  if (!bad.empty()) throw OptionError("--gs: " + bad);
+  SelectedLine s;
+  std::string name;
+  if (!a.line.empty() || !a.catalog.empty()) {
+    if (a.line.empty() || a.catalog.empty()) throw OptionError("--line and --catalog go together");
+    if (!a.lower.empty() || !a.upper.empty() || !a.wavelength.empty())
+      throw OptionError("--line/--catalog cannot be combined with --lower/--upper/--wavelength");
+    const auto lines = ReadLineList(a.catalog);
+    const LineEntry& e = FindLine(lines, a.line, a.catalog);
+    name = e.name + " ";
+    s.lower_text = e.lower.text;
+    s.upper_text = e.upper.text;
+    s.rest_wavelength_nm = e.wavelength_nm;
+    s.frame = e.frame;
+    s.mass_amu = e.mass_amu;
+    s.pattern = ComputeZeemanPattern(e.lower, e.upper, lande);
+  } else {
+    if (a.lower.empty() || a.upper.empty() || a.wavelength.empty())
+      throw OptionError("name the line with --lower, --upper and --wavelength, or with --line NAME --catalog FILE");
+    s.lower_text = a.lower;
+    s.upper_text = a.upper;
+    s.rest_wavelength_nm = ParseWavelength_nm(a.wavelength);
+    s.pattern = ComputeZeemanPattern(ParseLevel(a.lower), ParseLevel(a.upper), lande);
+  }
+  if (!a.frame.empty()) s.frame = WavelengthFrameFromString(a.frame);
+  char buf[256];
+  std::snprintf(buf, sizeof buf, "%s(%s -> %s) %.6f nm %s, g_eff %.4f, G %.4f", name.c_str(), s.lower_text.c_str(),
+                s.upper_text.c_str(), s.rest_wavelength_nm, s.frame ? ToString(*s.frame).c_str() : "(data frame)",
+                s.pattern.g_eff, s.pattern.G);
+  s.description = buf;
+  return s;
+}
+
+}  // namespace zeeline::cli

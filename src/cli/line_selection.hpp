@@ -1,0 +1,36 @@
+// line_selection.hpp (CLI-private) -- the options that name a spectral line, shared by the commands that
+// work on one line: --lower/--upper/--wavelength, or --line NAME with --catalog FILE, and --gs, --frame.
+#pragma once
+
+#include <optional>
+#include <string>
+
+#include <CLI/CLI.hpp>
+
+#include "zeeline/atomic/zeeman_pattern.hpp"
+#include "zeeline/core/wavelength_frame.hpp"
+
+namespace zeeline::cli {
+
+struct LineSelectionArgs {
+  std::string lower, upper, wavelength, line, catalog, frame;
+  std::optional<double> gs;
+};
+
+struct SelectedLine {
+  std::string description;                 ///< e.g. "FeI_6302 (5P1 -> 5D0) 630.2494 nm air, g_eff 2.5035"
+  std::string lower_text, upper_text;
+  double rest_wavelength_nm = 0.0;
+  std::optional<WavelengthFrame> frame;    ///< unset = same frame as the data
+  std::optional<double> mass_amu;
+  ZeemanPattern pattern;
+};
+
+/// Adds the options to `cmd`; `frame_help` explains what the frame defaults to for this command.
+void AddLineSelectionOptions(CLI::App* cmd, LineSelectionArgs& args, const std::string& frame_help);
+
+/// Resolves the options (reads the catalog when given). Throws OptionError / LineListError /
+/// LevelParseError / UnitError with the offending value.
+SelectedLine ResolveLine(const LineSelectionArgs& args);
+
+}  // namespace zeeline::cli

@@ -1,0 +1,551 @@
+#include "zeeline/io/cube_reader.hpp"
+
+#include <fitsio.h>
+#include <wcslib/wcs.h>
+#include <wcslib/wcsfix.h>
+#include <wcslib/wcshdr.h>
+#include <wcslib/wcsutil.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdlib>
+#include <limits>
+#include <sys/stat.h>
+#include <type_traits>
+
+#include "io/fits_util.hpp"
+#include "zeeline/core/constants.hpp"
+#include "zeeline/core/errors.hpp"
+#include "zeeline/io/air_vacuum.hpp"
+
+namespace zeeline {
+
+using io_detail::CfitsioMessage;
+using io_detail::Num;
+using io_detail::Trim;
+
+std::string ToString(StokesParameter s) {
+  switch (s) {
+    case StokesParameter::kI: return "I";
+    case StokesParameter::kQ: return "Q";
+    case StokesParameter::kU: return "U";
+    case StokesParameter::kV: return "V";
+  }
+  return "?";
+}
+
+std::string ToString(AxisRole role) {
+  switch (role) {
+    case AxisRole::kSpatialX: return "x";
+    case AxisRole::kSpatialY: return "y";
+    case AxisRole::kSpectral: return "spectral";
+    case AxisRole::kStokes: return "stokes";
+  }
+  return "?";
+}
+
+std::string CubeReadOptions::Validate() const {
+  if (v_sign != 1 && v_sign != -1) return "v_sign = " + std::to_string(v_sign) + ": expected +1 or -1";
+  if (!(max_tile_mib > 0.0 && max_tile_mib <= 1.0e6))
+    return "max_tile_mib = " + Num(max_tile_mib) + ": expected 0 < value <= 1e6";
+  return "";
+}
+
+int CubeInfo::StokesIndex(StokesParameter s) const {
+  for (std::size_t i = 0; i < stokes.size(); ++i)
+    if (stokes[i] == s) return static_cast<int>(i);
+  return -1;
+}
+
+namespace {
+
+// Feed-correlation codes of FITS WCS Paper I table 7 (not supported, named in the error).
+const char* FeedCode(int v) {
+  switch (v) {
+    case -1: return "RR";
+    case -2: return "LL";
+    case -3: return "RL";
+    case -4: return "LR";
+    case -5: return "XX";
+    case -6: return "YY";
+    case -7: return "XY";
+    case -8: return "YX";
+    default: return nullptr;
+  }
+}
+
+std::string Upper4(const char* ctype) {
+  std::string s = Trim(ctype);
+  return s.substr(0, 4);
+}
+
+}  // namespace
+
+struct CubeReader::Impl {
+  fitsfile* f = nullptr;
+  CubeInfo info;
+  CubeReadOptions options;
+  long next_row = 0;
+  std::vector<double> scratch_d;
+  std::vector<float> scratch_f;
+
+  ~Impl() {
+    if (f) {
+      int status = 0;
+      fits_close_file(f, &status);
+    }
+  }
+
+  std::string Where() const {
+    std::string w = "'" + info.path + "' HDU " + std::to_string(info.hdu);
+    if (!info.extname.empty()) w += " (EXTNAME '" + info.extname + "')";
+    return w;
+  }
+  [[noreturn]] void Fail(const std::string& what) const { throw FitsError(Where() + ": " + what); }
+
+  void Open(const std::string& path);
+  void CheckSize(const std::array<long long, 4>& naxes);
+  void ParseWcs(const std::array<long long, 4>& naxes);
+
+  template <class T>
+  void Read(long y_begin, long y_count, CubeTileT<T>& tile);
+};
+
+void CubeReader::Impl::Open(const std::string& path) {
+  info.path = path;
+  // A missing file gets a plain message (cfitsio's is generic).
+  {
+    char root[FLEN_FILENAME] = {0};
+    int st = 0;
+    fits_parse_rootname(const_cast<char*>(path.c_str()), root, &st);
+    struct stat sb {};
+    const std::string r = Trim(root);
+    if (st == 0 && !r.empty() && r.find("://") == std::string::npos && ::stat(r.c_str(), &sb) != 0)
+      throw FitsError("'" + path + "': no such file");
+  }
+  int status = 0;
+  if (fits_open_image(&f, path.c_str(), READONLY, &status)) {
+    f = nullptr;
+    throw FitsError("'" + path +
+                    "': cannot open as a FITS image (not a FITS file, a truncated or damaged header, or no "
+                    "image HDU): " +
+                    CfitsioMessage(status));
+  }
+  int hdu = 1;
+  fits_get_hdu_num(f, &hdu);
+  info.hdu = hdu;
+  char extname[FLEN_VALUE] = {0};
+  status = 0;
+  if (fits_read_key(f, TSTRING, "EXTNAME", extname, nullptr, &status) == 0) info.extname = Trim(extname);
+  status = 0;
+  fits_clear_errmsg();
+
+  int bitpix = 0, naxis = 0;
+  if (fits_get_img_type(f, &bitpix, &status) || fits_get_img_dim(f, &naxis, &status))
+    Fail("cannot read BITPIX/NAXIS: " + CfitsioMessage(status));
+  info.bitpix = bitpix;
+  if (naxis == 0) Fail("NAXIS = 0: the HDU holds no image data");
+  if (naxis != 4)
+    Fail("NAXIS = " + std::to_string(naxis) +
+         ": expected 4 axes (two spatial, one spectral, one STOKES)");
+  std::array<long long, 4> naxes{};
+  if (fits_get_img_sizell(f, 4, naxes.data(), &status)) Fail("cannot read NAXISn: " + CfitsioMessage(status));
+  for (int i = 0; i < 4; ++i) {
+    if (naxes[i] <= 0) Fail("NAXIS" + std::to_string(i + 1) + " = " + std::to_string(naxes[i]) + ": empty axis");
+  }
+  CheckSize(naxes);
+  ParseWcs(naxes);
+}
+
+void CubeReader::Impl::CheckSize(const std::array<long long, 4>& naxes) {
+  int status = 0;
+  LONGLONG headstart = 0, datastart = 0, dataend = 0;
+  if (fits_get_hduaddrll(f, &headstart, &datastart, &dataend, &status))
+    Fail("cannot locate the data unit: " + CfitsioMessage(status));
+  // Product with overflow check: every factor is > 0.
+  const long double bytes_ld = static_cast<long double>(naxes[0]) * static_cast<long double>(naxes[1]) *
+                               static_cast<long double>(naxes[2]) * static_cast<long double>(naxes[3]) *
+                               static_cast<long double>(std::abs(info.bitpix) / 8);
+  const LONGLONG file_size = f->Fptr->logfilesize;
+  const std::string dims = std::to_string(naxes[0]) + " x " + std::to_string(naxes[1]) + " x " +
+                           std::to_string(naxes[2]) + " x " + std::to_string(naxes[3]);
+  if (bytes_ld > static_cast<long double>(file_size - datastart)) {
+    Fail("NAXIS1..NAXIS4 = " + dims + " with BITPIX = " + std::to_string(info.bitpix) + " need " +
+         Num(static_cast<double>(bytes_ld)) + " bytes of data but the file ends " +
+         std::to_string(file_size - datastart) +
+         " bytes after the header: truncated file, or NAXISn inconsistent with the file size");
+  }
+  if (naxes[0] * naxes[1] * naxes[2] > std::numeric_limits<long>::max() / naxes[3])
+    Fail("NAXIS1..NAXIS4 = " + dims + ": too many pixels");
+}
+
+void CubeReader::Impl::ParseWcs(const std::array<long long, 4>& naxes) {
+  io_detail::EnableWcsErrors();
+  int status = 0;
+  char* header = nullptr;
+  int nkeys = 0;
+  if (fits_hdr2str(f, 1, nullptr, 0, &header, &nkeys, &status))
+    Fail("cannot read the header: " + CfitsioMessage(status));
+  std::string hdr(header);
+  fits_free_memory(header, &status);
+
+  io_detail::WcsHolder wcs;
+  std::string error;
+  if (!io_detail::ParseHeaderWcs(hdr, nkeys, wcs, error)) {
+    if (!error.empty()) Fail(error);
+    Fail("no WCS keywords: no spectral axis (CTYPEn = WAVE, AWAV, FREQ or WAVN) and no STOKES axis "
+         "(CTYPEn = 'STOKES')");
+  }
+  wcsprm& w = wcs.w;
+  if (w.naxis != 4) Fail("WCSAXES = " + std::to_string(w.naxis) + ": expected 4");
+
+  // Zero increments make the linear transformation singular; name the keyword.
+  for (int i = 0; i < 4; ++i) {
+    if (!(w.altlin & 2) && w.cdelt[i] == 0.0)
+      Fail("CDELT" + std::to_string(i + 1) + " = 0: zero coordinate increment on axis " + std::to_string(i + 1));
+  }
+  std::string ctypes;
+  for (int i = 0; i < 4; ++i) {
+    ctypes += (i ? ", " : "") + std::string("CTYPE") + std::to_string(i + 1) + " = '" + Trim(w.ctype[i]) + "'";
+  }
+
+  // Axis roles from CTYPE.
+  int spectral = -1, stokes = -1;
+  for (int i = 0; i < 4; ++i) {
+    const std::string t = Trim(w.ctype[i]);
+    const std::string code = Upper4(w.ctype[i]);
+    if (t == "STOKES") {
+      if (stokes >= 0) Fail("two STOKES axes (CTYPE" + std::to_string(stokes + 1) + " and CTYPE" + std::to_string(i + 1) + ")");
+      stokes = i;
+    } else if (code == "WAVE" || code == "AWAV" || code == "FREQ" || code == "WAVN") {
+      if (spectral >= 0)
+        Fail("two spectral axes (CTYPE" + std::to_string(spectral + 1) + " and CTYPE" + std::to_string(i + 1) + ")");
+      spectral = i;
+    } else if (code == "VRAD" || code == "VOPT" || code == "ZOPT" || code == "VELO" || code == "ENER" ||
+               code == "BETA" || code == "VAVE") {
+      Fail("CTYPE" + std::to_string(i + 1) + " = '" + t +
+           "': spectral type not supported; expected WAVE, AWAV, FREQ or WAVN");
+    }
+  }
+  if (spectral < 0 && stokes < 0) Fail("no spectral axis and no STOKES axis (" + ctypes + ")");
+  if (spectral < 0)
+    Fail("no spectral axis: no CTYPEn is WAVE, AWAV, FREQ or WAVN (" + ctypes + ")");
+  if (stokes < 0) Fail("no STOKES axis: no CTYPEn is 'STOKES' (" + ctypes + ")");
+
+  std::vector<int> spatial;
+  for (int i = 0; i < 4; ++i)
+    if (i != spectral && i != stokes) spatial.push_back(i);
+  info.x_axis = spatial[0];
+  info.y_axis = spatial[1];
+  info.spectral_axis = spectral;
+  info.stokes_axis = stokes;
+  for (int i = 0; i < 4; ++i) {
+    CubeAxis& a = info.axes[i];
+    a.fits_axis = i + 1;
+    a.size = static_cast<long>(naxes[i]);
+    a.ctype = Trim(w.ctype[i]);
+    a.cunit = Trim(w.cunit[i]);
+    a.role = i == spectral ? AxisRole::kSpectral
+             : i == stokes ? AxisRole::kStokes
+             : i == spatial[0] ? AxisRole::kSpatialX
+                               : AxisRole::kSpatialY;
+  }
+  info.nx = info.axes[info.x_axis].size;
+  info.ny = info.axes[info.y_axis].size;
+  info.spectral_ctype = Trim(w.ctype[spectral]);
+
+  // Translate non-standard units (e.g. 'ANGSTROM') before wcsset, as wcslib recommends.
+  int fixstat = unitfix(0, &w);
+  (void)fixstat;
+  const int st = wcsset(&w);
+  if (st != 0) Fail("invalid WCS (" + ctypes + "): " + io_detail::WcsMessage(w, st));
+
+  // The spectral and STOKES axes must not be mixed with other axes by PCi_j (or CDi_j).
+  for (int i = 0; i < 4; ++i) {
+    for (int j = 0; j < 4; ++j) {
+      if (i == j) continue;
+      const double pc = w.pc[i * 4 + j];
+      if (pc != 0.0 && (i == spectral || j == spectral || i == stokes || j == stokes)) {
+        Fail("PC" + std::to_string(i + 1) + "_" + std::to_string(j + 1) + " = " + Num(pc) +
+             " (or the matching CD element) couples the " + (i == spectral || j == spectral ? "spectral" : "STOKES") +
+             " axis with another axis; not supported");
+      }
+    }
+  }
+
+  // World coordinates along the spectral and STOKES axes (other pixel coordinates at 1).
+  const long nw = info.axes[spectral].size;
+  const long ns = info.axes[stokes].size;
+  auto world_along = [&](int axis, long n, std::vector<double>& out) {
+    std::vector<double> pix(static_cast<std::size_t>(n) * 4, 1.0), img(pix.size()), world(pix.size());
+    std::vector<double> phi(n), theta(n);
+    std::vector<int> stat(n);
+    for (long k = 0; k < n; ++k) pix[k * 4 + axis] = static_cast<double>(k + 1);
+    const int s = wcsp2s(&w, static_cast<int>(n), 4, pix.data(), img.data(), phi.data(), theta.data(),
+                         world.data(), stat.data());
+    if (s != 0 && s != 8) Fail("cannot evaluate the WCS along axis " + std::to_string(axis + 1) + ": " + io_detail::WcsMessage(w, s));
+    out.resize(n);
+    for (long k = 0; k < n; ++k) {
+      if (stat[k] != 0) {
+        out[k] = std::numeric_limits<double>::quiet_NaN();
+      } else {
+        out[k] = world[k * 4 + axis];
+      }
+    }
+  };
+
+  // Spectral grid in nm.
+  std::vector<double> sw;
+  world_along(spectral, nw, sw);
+  const std::string code = Upper4(w.ctype[spectral]);
+  const std::string skey = "CTYPE" + std::to_string(spectral + 1) + " = '" + info.spectral_ctype + "'";
+  std::vector<double> nm(nw);
+  for (long k = 0; k < nw; ++k) {
+    const double v = sw[k];
+    double lambda_nm = std::numeric_limits<double>::quiet_NaN();
+    if (code == "WAVE" || code == "AWAV") lambda_nm = v * 1e9;
+    else if (code == "FREQ") lambda_nm = constants::kSpeedOfLight_m_s / v * 1e9;
+    else if (code == "WAVN") lambda_nm = 1e9 / v;
+    if (!std::isfinite(lambda_nm) || lambda_nm <= 0.0) {
+      Fail(skey + ", CRVAL" + std::to_string(spectral + 1) + "/CDELT" + std::to_string(spectral + 1) +
+           ": spectral pixel " + std::to_string(k + 1) + " gives a non-positive or invalid wavelength (" +
+           Num(lambda_nm) + " nm)");
+    }
+    nm[k] = lambda_nm;
+  }
+  if (nw >= 2) {
+    const bool increasing = nm[1] > nm[0];
+    for (long k = 1; k < nw; ++k) {
+      const bool ok = increasing ? nm[k] > nm[k - 1] : nm[k] < nm[k - 1];
+      if (!ok)
+        Fail(skey + ": the wavelength grid is not strictly monotonic at spectral pixels " + std::to_string(k) +
+             ".." + std::to_string(k + 1) + " (" + Num(nm[k - 1]) + ", " + Num(nm[k]) + " nm)");
+    }
+    if (!increasing) {
+      std::reverse(nm.begin(), nm.end());
+      info.spectral_reversed = true;
+    }
+  }
+  info.file_frame = code == "AWAV" ? WavelengthFrame::kAir : WavelengthFrame::kVacuum;
+  info.frame = options.frame.value_or(info.file_frame);
+  if (info.frame != info.file_frame) {
+    try {
+      nm = ConvertWavelengths_nm(nm, info.file_frame, info.frame);
+    } catch (const OptionError& e) {
+      Fail(skey + ": cannot convert to " + ToString(info.frame) + " wavelengths: " + e.what());
+    }
+  }
+  info.wavelength_nm = std::move(nm);
+
+  // STOKES codes.
+  std::vector<double> sv;
+  world_along(stokes, ns, sv);
+  const std::string tkey = "CTYPE" + std::to_string(stokes + 1) + " = 'STOKES' (CRVAL" + std::to_string(stokes + 1) +
+                           ", CDELT" + std::to_string(stokes + 1) + ", CRPIX" + std::to_string(stokes + 1) + ")";
+  for (long k = 0; k < ns; ++k) {
+    const double v = sv[k];
+    const double r = std::round(v);
+    if (!std::isfinite(v) || std::fabs(v - r) > 1e-6)
+      Fail(tkey + ": pixel " + std::to_string(k + 1) + " has STOKES value " + Num(v) + "; expected an integer code");
+    const int code_v = static_cast<int>(r);
+    if (const char* feed = FeedCode(code_v)) {
+      Fail(tkey + ": pixel " + std::to_string(k + 1) + " has STOKES value " + std::to_string(code_v) + " (" + feed +
+           "); feed correlations RR, LL, RL, LR, XX, YY, XY, YX (codes -1..-8) are not supported, only "
+           "I, Q, U, V (codes 1..4)");
+    }
+    if (code_v < 1 || code_v > 4)
+      Fail(tkey + ": pixel " + std::to_string(k + 1) + " has STOKES value " + std::to_string(code_v) +
+           ", outside 1..4 (I, Q, U, V)");
+    const auto p = static_cast<StokesParameter>(code_v);
+    if (info.StokesIndex(p) >= 0) Fail(tkey + ": Stokes " + ToString(p) + " appears twice");
+    info.stokes.push_back(p);
+  }
+
+  // 2-D WCS of the spatial axes.
+  io_detail::WcsHolder sub;
+  int nsub = 2;
+  int axes[2] = {info.x_axis + 1, info.y_axis + 1};
+  const int ss = wcssub(1, &w, &nsub, axes, &sub.w);
+  if (ss != 0) Fail("cannot extract the spatial WCS of axes " + std::to_string(axes[0]) + " and " +
+                    std::to_string(axes[1]) + ": " + io_detail::WcsMessage(w, ss));
+  std::string cards;
+  if (!io_detail::WcsToCards(sub.w, cards, error)) Fail("cannot format the spatial WCS: " + error);
+  info.spatial_wcs_header = cards;
+}
+
+template <class T>
+void CubeReader::Impl::Read(long y_begin, long y_count, CubeTileT<T>& tile) {
+  if (y_begin < 0 || y_count <= 0 || y_begin + y_count > info.ny) {
+    throw OptionError("CubeReader::ReadRows: rows " + std::to_string(y_begin) + " + " + std::to_string(y_count) +
+                      " outside 0.." + std::to_string(info.ny));
+  }
+  const int ns = info.n_stokes();
+  const long nw = info.n_wavelength();
+  const long nx = info.nx;
+  long blc[4], trc[4], inc[4] = {1, 1, 1, 1};
+  long dims[4];
+  for (int i = 0; i < 4; ++i) {
+    blc[i] = 1;
+    trc[i] = info.axes[i].size;
+  }
+  blc[info.y_axis] = y_begin + 1;
+  trc[info.y_axis] = y_begin + y_count;
+  for (int i = 0; i < 4; ++i) dims[i] = trc[i] - blc[i] + 1;
+  long stride[4];
+  stride[0] = 1;
+  for (int i = 1; i < 4; ++i) stride[i] = stride[i - 1] * dims[i - 1];
+  const std::size_t n = static_cast<std::size_t>(stride[3] * dims[3]);
+
+  std::vector<T>* scratch;
+  int datatype;
+  if constexpr (std::is_same_v<T, float>) {
+    scratch = &scratch_f;
+    datatype = TFLOAT;
+  } else {
+    scratch = &scratch_d;
+    datatype = TDOUBLE;
+  }
+  scratch->resize(n);
+  // Integer images: BLANK pixels become NaN. Floating images: no null substitution, so NaN and Inf
+  // samples arrive unchanged (cfitsio would otherwise map both to the null value).
+  T nulval = info.bitpix > 0 ? std::numeric_limits<T>::quiet_NaN() : T(0);
+  int anynul = 0, status = 0;
+  if (fits_read_subset(f, datatype, blc, trc, inc, &nulval, scratch->data(), &anynul, &status)) {
+    Fail("cannot read rows " + std::to_string(y_begin + 1) + ".." + std::to_string(y_begin + y_count) +
+         " of the data unit: " + CfitsioMessage(status));
+  }
+  tile.y_begin = y_begin;
+  tile.y_count = y_count;
+  tile.nx = nx;
+  tile.n_stokes = ns;
+  tile.n_wavelength = nw;
+  tile.data.resize(n);
+  tile.nonfinite.assign(static_cast<std::size_t>(nx * y_count), 0u);
+
+  const long sx = stride[info.x_axis], sy = stride[info.y_axis], sl = stride[info.spectral_axis],
+             sk = stride[info.stokes_axis];
+  const int v_index = info.StokesIndex(StokesParameter::kV);
+  const T v_sign = static_cast<T>(options.v_sign);
+  const bool rev = info.spectral_reversed;
+  const T* src = scratch->data();
+  T* dst = tile.data.data();
+  for (long yy = 0; yy < y_count; ++yy) {
+    for (long x = 0; x < nx; ++x) {
+      const long p = yy * nx + x;
+      std::uint32_t bad = 0;
+      const T* base = src + x * sx + yy * sy;
+      for (int s = 0; s < ns; ++s) {
+        const T* sbase = base + s * sk;
+        T* d = dst + (p * ns + s) * nw;
+        const T sign = s == v_index ? v_sign : T(1);
+        for (long k = 0; k < nw; ++k) {
+          const long kf = rev ? nw - 1 - k : k;
+          const T v = sbase[kf * sl] * sign;
+          d[k] = v;
+          if (!std::isfinite(v)) ++bad;
+        }
+      }
+      tile.nonfinite[static_cast<std::size_t>(p)] = bad;
+    }
+  }
+}
+
+CubeReader::CubeReader(const std::string& path, const CubeReadOptions& options) : impl_(std::make_unique<Impl>()) {
+  const std::string problem = options.Validate();
+  if (!problem.empty()) throw OptionError("CubeReadOptions: " + problem);
+  impl_->options = options;
+  impl_->Open(path);
+  if (options.scan_statistics) ScanStatistics();
+}
+
+CubeReader::~CubeReader() = default;
+CubeReader::CubeReader(CubeReader&&) noexcept = default;
+CubeReader& CubeReader::operator=(CubeReader&&) noexcept = default;
+
+const CubeInfo& CubeReader::info() const { return impl_->info; }
+
+long CubeReader::rows_per_tile() const {
+  const CubeInfo& i = impl_->info;
+  // Tile buffer plus the cfitsio read buffer, in doubles.
+  const double row_bytes = 2.0 * 8.0 * static_cast<double>(i.nx) * i.n_stokes() * static_cast<double>(i.n_wavelength());
+  const double budget = impl_->options.max_tile_mib * 1048576.0;
+  const long rows = static_cast<long>(std::floor(budget / row_bytes));
+  return std::clamp(rows, 1L, i.ny);
+}
+
+template <class T>
+void CubeReader::ReadRows(long y_begin, long y_count, CubeTileT<T>& tile) {
+  impl_->Read(y_begin, y_count, tile);
+}
+
+template <class T>
+bool CubeReader::NextTile(CubeTileT<T>& tile) {
+  if (impl_->next_row >= impl_->info.ny) return false;
+  const long count = std::min(rows_per_tile(), impl_->info.ny - impl_->next_row);
+  impl_->Read(impl_->next_row, count, tile);
+  impl_->next_row += count;
+  return true;
+}
+
+void CubeReader::Rewind() { impl_->next_row = 0; }
+
+const CubeStatistics& CubeReader::ScanStatistics() {
+  const CubeInfo& i = impl_->info;
+  CubeStatistics st;
+  const int ns = i.n_stokes();
+  const double inf = std::numeric_limits<double>::infinity();
+  st.min = inf;
+  st.max = -inf;
+  st.min_per_stokes.assign(ns, inf);
+  st.max_per_stokes.assign(ns, -inf);
+  CubeTile tile;
+  const long saved = impl_->next_row;
+  impl_->next_row = 0;
+  while (NextTile(tile)) {
+    const long nw = tile.n_wavelength;
+    for (long p = 0; p < tile.n_pixels(); ++p) {
+      if (tile.nonfinite[static_cast<std::size_t>(p)]) ++st.pixels_with_nonfinite;
+      for (int s = 0; s < ns; ++s) {
+        const double* d = tile.Spectrum(p, s);
+        double lo = st.min_per_stokes[s], hi = st.max_per_stokes[s];
+        for (long k = 0; k < nw; ++k) {
+          const double v = d[k];
+          if (std::isnan(v)) {
+            ++st.nan_samples;
+          } else if (std::isinf(v)) {
+            ++st.inf_samples;
+          } else {
+            ++st.finite_samples;
+            lo = std::min(lo, v);
+            hi = std::max(hi, v);
+          }
+        }
+        st.min_per_stokes[s] = lo;
+        st.max_per_stokes[s] = hi;
+      }
+    }
+  }
+  impl_->next_row = saved;
+  if (st.finite_samples == 0) {
+    impl_->Fail("all " + std::to_string(st.nan_samples + st.inf_samples) +
+                " data samples are NaN or Inf: no usable data");
+  }
+  for (int s = 0; s < ns; ++s) {
+    st.min = std::min(st.min, st.min_per_stokes[s]);
+    st.max = std::max(st.max, st.max_per_stokes[s]);
+  }
+  impl_->info.statistics = st;
+  return *impl_->info.statistics;
+}
+
+CubeInfo ReadCubeInfo(const std::string& path, const CubeReadOptions& options) {
+  CubeReader r(path, options);
+  return r.info();
+}
+
+template void CubeReader::ReadRows<float>(long, long, CubeTileT<float>&);
+template void CubeReader::ReadRows<double>(long, long, CubeTileT<double>&);
+template bool CubeReader::NextTile<float>(CubeTileT<float>&);
+template bool CubeReader::NextTile<double>(CubeTileT<double>&);
+
+}  // namespace zeeline

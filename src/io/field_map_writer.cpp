@@ -1,0 +1,402 @@
+#include "zeeline/io/field_map_writer.hpp"
+
+#include <fitsio.h>
+#include <wcslib/wcs.h>
+
+#include <algorithm>
+#include <cctype>
+#include <cmath>
+#include <limits>
+#include <set>
+
+#include "io/atomic_file.hpp"
+#include "io/fits_util.hpp"
+#include "zeeline/core/errors.hpp"
+
+namespace zeeline {
+
+using io_detail::AsciiOnly;
+using io_detail::CfitsioMessage;
+using io_detail::Num;
+
+std::string StandardMapUnit(const std::string& extname) {
+  std::string name = extname;
+  const std::string suffix = map_names::kErrorSuffix;
+  if (name.size() > suffix.size() && name.compare(name.size() - suffix.size(), suffix.size(), suffix) == 0)
+    name = name.substr(0, name.size() - suffix.size());
+  if (name == map_names::kField || name == map_names::kBlos || name == map_names::kBtrans) return "G";
+  if (name == map_names::kInclination || name == map_names::kAzimuth) return "deg";
+  if (name == map_names::kVlos) return "km/s";
+  return "";
+}
+
+ImageHdu MakeMap(const std::string& extname, long nx, long ny, std::vector<double> values) {
+  ImageHdu h;
+  h.extname = extname;
+  h.bunit = StandardMapUnit(extname);
+  h.naxes = {nx, ny};
+  h.values = std::move(values);
+  if (extname == map_names::kQuality || extname == map_names::kMethod) h.type = FitsPixelType::kInt32;
+  return h;
+}
+
+namespace {
+
+bool ValidKeyword(const std::string& k) {
+  if (k.empty() || k.size() > 8) return false;
+  return std::all_of(k.begin(), k.end(), [](char c) {
+    return (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '-' || c == '_';
+  });
+}
+
+std::string ValidateProvenance(const Provenance& p) {
+  for (const auto& kv : p.keywords) {
+    if (!ValidKeyword(kv.key))
+      return "provenance.keywords: '" + kv.key + "' is not a FITS keyword (1-8 characters A-Z 0-9 - _)";
+  }
+  return "";
+}
+
+struct Writer {
+  fitsfile* f = nullptr;
+  std::string path;
+  std::string hdu = "primary HDU";
+
+  [[noreturn]] void Fail(const std::string& what) const {
+    throw FitsError("'" + path + "' " + hdu + ": " + what);
+  }
+  void Check(int status, const std::string& what) const {
+    if (status) Fail(what + ": " + CfitsioMessage(status));
+  }
+
+  void Key(const HeaderValue& hv) {
+    if (!ValidKeyword(hv.key)) Fail("keyword '" + hv.key + "' is not a valid FITS keyword name");
+    int status = 0;
+    const std::string comment = AsciiOnly(hv.comment);
+    char* cm = comment.empty() ? nullptr : const_cast<char*>(comment.c_str());
+    if (const auto* s = std::get_if<std::string>(&hv.value)) {
+      const std::string v = AsciiOnly(*s);
+      if (v.size() > 68) {
+        fits_write_key_longstr(f, hv.key.c_str(), v.c_str(), cm, &status);
+      } else {
+        fits_write_key(f, TSTRING, hv.key.c_str(), const_cast<char*>(v.c_str()), cm, &status);
+      }
+    } else if (const auto* d = std::get_if<double>(&hv.value)) {
+      if (!std::isfinite(*d)) Fail("keyword " + hv.key + " = " + Num(*d) + ": FITS header values must be finite");
+      fits_write_key_dbl(f, hv.key.c_str(), *d, -15, cm, &status);
+    } else if (const auto* i = std::get_if<long long>(&hv.value)) {
+      LONGLONG v = *i;
+      fits_write_key(f, TLONGLONG, hv.key.c_str(), &v, cm, &status);
+    } else if (const auto* b = std::get_if<bool>(&hv.value)) {
+      int v = *b ? 1 : 0;
+      fits_write_key(f, TLOGICAL, hv.key.c_str(), &v, cm, &status);
+    }
+    Check(status, "cannot write keyword " + hv.key);
+  }
+
+  void History(const std::string& text) {
+    const std::string t = AsciiOnly(text);
+    for (std::size_t i = 0; i < t.size() || i == 0; i += 70) {
+      int status = 0;
+      fits_write_history(f, t.substr(i, 70).c_str(), &status);
+      Check(status, "cannot write HISTORY");
+      if (t.empty()) break;
+    }
+  }
+
+  void Provenance(const zeeline::Provenance& p) {
+    Key({"CREATOR", std::string("zeeline " ZEELINE_VERSION), "software that wrote this file"});
+    int status = 0;
+    fits_write_date(f, &status);
+    Check(status, "cannot write DATE");
+    if (!p.method.empty()) Key({"ZLMETHOD", p.method, "field estimation method"});
+    if (!p.line.empty()) Key({"ZLLINE", p.line, "spectral line used"});
+    if (!p.input.empty()) Key({"ZLINPUT", p.input, "input file"});
+    if (!p.command_line.empty()) Key({"ZLCMD", p.command_line, "command line"});
+    for (const auto& kv : p.keywords) Key(kv);
+    for (const auto& h : p.history) History(h);
+  }
+
+  // Writes WCS cards; a WCSAXES card is replaced by `wcsaxes` (when > 0) or kept.
+  void WcsCards(const std::string& cards, int wcsaxes) {
+    if (wcsaxes > 0) {
+      int status = 0;
+      int v = wcsaxes;
+      fits_write_key(f, TINT, "WCSAXES", &v, const_cast<char*>("number of WCS axes"), &status);
+      Check(status, "cannot write WCSAXES");
+    }
+    for (const auto& card : io_detail::SplitCards(cards)) {
+      const std::string key = io_detail::CardKeyword(card);
+      if (key == "WCSAXES" && wcsaxes > 0) continue;
+      int status = 0;
+      fits_write_record(f, card.c_str(), &status);
+      Check(status, "cannot write WCS card '" + io_detail::Trim(card) + "'");
+    }
+  }
+
+  void Image(const ImageHdu& h, const std::string& spatial_wcs) {
+    hdu = "HDU '" + h.extname + "'";
+    int bitpix = FLOAT_IMG;
+    switch (h.type) {
+      case FitsPixelType::kFloat32: bitpix = FLOAT_IMG; break;
+      case FitsPixelType::kFloat64: bitpix = DOUBLE_IMG; break;
+      case FitsPixelType::kInt16: bitpix = SHORT_IMG; break;
+      case FitsPixelType::kInt32: bitpix = LONG_IMG; break;
+    }
+    std::vector<long> naxes = h.naxes;
+    int status = 0;
+    fits_create_img(f, bitpix, static_cast<int>(naxes.size()), naxes.data(), &status);
+    Check(status, "cannot create the image HDU");
+    Key({"EXTNAME", h.extname, "map name"});
+    if (!h.bunit.empty()) Key({"BUNIT", h.bunit, "physical unit of the values"});
+    const std::string& wcs = !h.wcs_header.empty() ? h.wcs_header : (h.spatial_wcs ? spatial_wcs : std::string());
+    if (!wcs.empty()) WcsCards(wcs, static_cast<int>(naxes.size()) != 2 ? static_cast<int>(naxes.size()) : 0);
+    for (const auto& kv : h.keywords) Key(kv);
+    const auto n = static_cast<LONGLONG>(h.values.size());
+    if (h.type == FitsPixelType::kFloat32 || h.type == FitsPixelType::kFloat64) {
+      fits_write_img(f, TDOUBLE, 1, n, const_cast<double*>(h.values.data()), &status);
+    } else {
+      const double lo = h.type == FitsPixelType::kInt16 ? -32768.0 : -2147483648.0;
+      const double hi = h.type == FitsPixelType::kInt16 ? 32767.0 : 2147483647.0;
+      std::vector<LONGLONG> iv(h.values.size());
+      for (std::size_t i = 0; i < h.values.size(); ++i) {
+        const double v = h.values[i];
+        if (!(v >= lo && v <= hi) || v != std::floor(v))
+          Fail("pixel " + std::to_string(i) + " = " + Num(v) + " is not an integer in " + Num(lo) + ".." + Num(hi) +
+               " (integer image)");
+        iv[i] = static_cast<LONGLONG>(v);
+      }
+      fits_write_img(f, TLONGLONG, 1, n, iv.data(), &status);
+    }
+    Check(status, "cannot write the image data");
+  }
+};
+
+void ValidateImages(const std::string& path, const std::vector<ImageHdu>& images) {
+  std::set<std::string> names;
+  for (const auto& h : images) {
+    const std::string where = "'" + path + "' HDU '" + h.extname + "': ";
+    if (h.extname.empty() || h.extname.size() > 68 ||
+        !std::all_of(h.extname.begin(), h.extname.end(),
+                     [](char c) { return (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '_'; }))
+      throw FitsError(where + "EXTNAME must be 1-68 characters A-Z, 0-9, '_'");
+    if (!names.insert(h.extname).second) throw FitsError(where + "EXTNAME appears twice");
+    if (h.naxes.empty() || h.naxes.size() > 999) throw FitsError(where + "needs 1..999 axes");
+    long double n = 1;
+    for (long a : h.naxes) {
+      if (a <= 0) throw FitsError(where + "axis length " + std::to_string(a) + " must be > 0");
+      n *= a;
+    }
+    if (n != static_cast<long double>(h.values.size()))
+      throw FitsError(where + "has " + std::to_string(h.values.size()) + " values but the axes need " +
+                      Num(static_cast<double>(n)));
+    if (AsciiOnly(h.bunit) != h.bunit) throw FitsError(where + "BUNIT must be ASCII");
+  }
+}
+
+void CreateFile(fitsfile** f, const std::string& temp, const std::string& path) {
+  int status = 0;
+  if (fits_create_diskfile(f, temp.c_str(), &status)) {
+    *f = nullptr;
+    throw FitsError("'" + path + "': cannot create '" + temp + "': " + CfitsioMessage(status));
+  }
+}
+
+void CloseFile(Writer& w) {
+  int status = 0;
+  fitsfile* f = w.f;
+  w.f = nullptr;
+  if (fits_close_file(f, &status)) throw FitsError("'" + w.path + "': cannot finish the file: " + CfitsioMessage(status));
+}
+
+}  // namespace
+
+std::string FitsWriteOptions::Validate() const { return ValidateProvenance(provenance); }
+
+void WriteFieldMaps(const std::string& path, const std::vector<ImageHdu>& maps, const std::string& spatial_wcs_header,
+                    const FitsWriteOptions& options) {
+  const std::string problem = options.Validate();
+  if (!problem.empty()) throw OptionError("FitsWriteOptions: " + problem);
+  if (maps.empty()) throw FitsError("'" + path + "': no maps to write");
+  ValidateImages(path, maps);
+  io_detail::TempOutputFile out(path, options.overwrite);
+  Writer w;
+  w.path = path;
+  CreateFile(&w.f, out.temp_path(), path);
+  io_detail::FitsCloser closer(w.f);  // closes on exceptions; the temp file is then removed
+  int status = 0;
+  fits_create_img(w.f, BYTE_IMG, 0, nullptr, &status);
+  w.Check(status, "cannot create the primary HDU");
+  w.Provenance(options.provenance);
+  for (const auto& m : maps) w.Image(m, spatial_wcs_header);
+  closer.release();
+  CloseFile(w);
+  out.Commit();
+}
+
+void WriteStokesCube(const std::string& path, const StokesCubeData& data, const std::vector<double>& wavelength_nm,
+                     WavelengthFrame frame, const std::string& spatial_wcs_header,
+                     const std::vector<ImageHdu>& extra_hdus, const FitsWriteOptions& options) {
+  const std::string problem = options.Validate();
+  if (!problem.empty()) throw OptionError("FitsWriteOptions: " + problem);
+  const std::string where = "'" + path + "' Stokes cube: ";
+  const long nx = data.nx, ny = data.ny;
+  const long nw = static_cast<long>(wavelength_nm.size());
+  const long ns = static_cast<long>(data.stokes.size());
+  if (nx <= 0 || ny <= 0 || nw <= 0 || ns <= 0)
+    throw FitsError(where + "empty cube (nx=" + std::to_string(nx) + ", ny=" + std::to_string(ny) +
+                    ", wavelengths=" + std::to_string(nw) + ", stokes=" + std::to_string(ns) + ")");
+  if (static_cast<long double>(data.values.size()) != static_cast<long double>(nx) * ny * ns * nw)
+    throw FitsError(where + "has " + std::to_string(data.values.size()) + " values, expected nx*ny*stokes*wavelengths = " +
+                    std::to_string(nx * ny * ns * nw));
+  // Uniform increasing wavelength grid.
+  const double step = nw > 1 ? (wavelength_nm[nw - 1] - wavelength_nm[0]) / static_cast<double>(nw - 1) : 0.001;
+  if (!(step > 0.0) || !std::isfinite(wavelength_nm[0]))
+    throw FitsError(where + "wavelength grid must be finite and strictly increasing");
+  for (long k = 0; k < nw; ++k) {
+    const double expected = wavelength_nm[0] + step * static_cast<double>(k);
+    if (!(std::fabs(wavelength_nm[k] - expected) <= 1e-6 * step))
+      throw FitsError(where + "wavelength grid is not uniform (pixel " + std::to_string(k + 1) + " = " +
+                      Num(wavelength_nm[k]) + " nm, expected " + Num(expected) + " nm); a linear CDELT3 needs a uniform grid");
+  }
+  // STOKES codes as an arithmetic sequence.
+  const int s0 = static_cast<int>(data.stokes[0]);
+  const int sstep = ns > 1 ? static_cast<int>(data.stokes[1]) - s0 : 1;
+  for (long s = 0; s < ns; ++s) {
+    if (static_cast<int>(data.stokes[s]) != s0 + sstep * static_cast<int>(s) || sstep == 0)
+      throw FitsError(where + "Stokes order must be an arithmetic sequence of codes (e.g. I,Q,U,V or I,V) for a linear "
+                      "STOKES axis");
+  }
+  ValidateImages(path, extra_hdus);
+
+  io_detail::TempOutputFile out(path, options.overwrite);
+  Writer w;
+  w.path = path;
+  CreateFile(&w.f, out.temp_path(), path);
+  io_detail::FitsCloser closer(w.f);
+  long naxes[4] = {nx, ny, nw, ns};
+  int status = 0;
+  fits_create_img(w.f, FLOAT_IMG, 4, naxes, &status);
+  w.Check(status, "cannot create the 4-D primary HDU");
+  if (!data.bunit.empty()) w.Key({"BUNIT", data.bunit, "physical unit of the values"});
+  w.WcsCards(spatial_wcs_header, 4);
+  if (spatial_wcs_header.empty()) {
+    // WcsCards wrote WCSAXES only; spatial axes default to pixel coordinates.
+  }
+  const bool air = frame == WavelengthFrame::kAir;
+  w.Key({"CTYPE3", std::string(air ? "AWAV" : "WAVE"), air ? "air wavelength" : "vacuum wavelength"});
+  w.Key({"CUNIT3", std::string("nm"), "wavelength unit"});
+  w.Key({"CRPIX3", 1.0, "reference pixel"});
+  w.Key({"CRVAL3", wavelength_nm[0], "wavelength at the reference pixel"});
+  w.Key({"CDELT3", step, "wavelength step"});
+  w.Key({"CTYPE4", std::string("STOKES"), "1..4 = I, Q, U, V (FITS WCS Paper I)"});
+  w.Key({"CRPIX4", 1.0, "reference pixel"});
+  w.Key({"CRVAL4", static_cast<double>(s0), "Stokes code at the reference pixel"});
+  w.Key({"CDELT4", static_cast<double>(sstep), "Stokes code step"});
+  w.Provenance(options.provenance);
+
+  // Planes in file order (x fastest), gathered from the pixel-major layout.
+  std::vector<float> plane(static_cast<std::size_t>(nx * ny));
+  for (long s = 0; s < ns; ++s) {
+    for (long k = 0; k < nw; ++k) {
+      for (long p = 0; p < nx * ny; ++p) plane[static_cast<std::size_t>(p)] = data.values[static_cast<std::size_t>((p * ns + s) * nw + k)];
+      long fpixel[4] = {1, 1, k + 1, s + 1};
+      fits_write_pix(w.f, TFLOAT, fpixel, nx * ny, plane.data(), &status);
+      w.Check(status, "cannot write the cube data");
+    }
+  }
+  for (const auto& h : extra_hdus) w.Image(h, spatial_wcs_header);
+  closer.release();
+  CloseFile(w);
+  out.Commit();
+}
+
+std::string MakeHelioprojectiveWcs(long nx, long ny, double arcsec_per_pixel, double x0_arcsec, double y0_arcsec) {
+  if (!(arcsec_per_pixel > 0.0) || nx <= 0 || ny <= 0)
+    throw OptionError("MakeHelioprojectiveWcs: need nx, ny > 0 and arcsec_per_pixel > 0 (got " + std::to_string(nx) +
+                      ", " + std::to_string(ny) + ", " + Num(arcsec_per_pixel) + ")");
+  io_detail::WcsHolder h;
+  wcsini(1, 2, &h.w);
+  std::snprintf(h.w.ctype[0], 72, "%s", "HPLN-TAN");
+  std::snprintf(h.w.ctype[1], 72, "%s", "HPLT-TAN");
+  std::snprintf(h.w.cunit[0], 72, "%s", "arcsec");
+  std::snprintf(h.w.cunit[1], 72, "%s", "arcsec");
+  h.w.crpix[0] = 0.5 * static_cast<double>(nx + 1);
+  h.w.crpix[1] = 0.5 * static_cast<double>(ny + 1);
+  h.w.cdelt[0] = arcsec_per_pixel;
+  h.w.cdelt[1] = arcsec_per_pixel;
+  h.w.crval[0] = x0_arcsec;
+  h.w.crval[1] = y0_arcsec;
+  std::string cards, error;
+  if (!io_detail::WcsToCards(h.w, cards, error)) throw OptionError("MakeHelioprojectiveWcs: " + error);
+  return cards;
+}
+
+std::vector<ImageHdu> ReadImageHdus(const std::string& path) {
+  fitsfile* f = nullptr;
+  int status = 0;
+  if (fits_open_file(&f, path.c_str(), READONLY, &status))
+    throw FitsError("'" + path + "': cannot open as FITS: " + CfitsioMessage(status));
+  io_detail::FitsCloser closer(f);
+  int nhdu = 0;
+  fits_get_num_hdus(f, &nhdu, &status);
+  std::vector<ImageHdu> out;
+  for (int i = 1; i <= nhdu; ++i) {
+    int type = 0;
+    status = 0;
+    if (fits_movabs_hdu(f, i, &type, &status))
+      throw FitsError("'" + path + "' HDU " + std::to_string(i) + ": " + CfitsioMessage(status));
+    if (type != IMAGE_HDU) continue;
+    int naxis = 0;
+    fits_get_img_dim(f, &naxis, &status);
+    if (naxis != 2) continue;
+    const std::string where = "'" + path + "' HDU " + std::to_string(i);
+    long long nax[2] = {0, 0};
+    int bitpix = 0;
+    fits_get_img_sizell(f, 2, nax, &status);
+    fits_get_img_type(f, &bitpix, &status);
+    if (status) throw FitsError(where + ": cannot read NAXISn/BITPIX: " + CfitsioMessage(status));
+    if (nax[0] <= 0 || nax[1] <= 0) continue;
+    LONGLONG headstart = 0, datastart = 0, dataend = 0;
+    fits_get_hduaddrll(f, &headstart, &datastart, &dataend, &status);
+    const long double need = static_cast<long double>(nax[0]) * nax[1] * (std::abs(bitpix) / 8);
+    if (need > static_cast<long double>(f->Fptr->logfilesize - datastart))
+      throw FitsError(where + ": NAXIS1 x NAXIS2 = " + std::to_string(nax[0]) + " x " + std::to_string(nax[1]) +
+                      " does not fit in the file: truncated file, or NAXISn inconsistent with the file size");
+    ImageHdu h;
+    char value[FLEN_VALUE] = {0};
+    int st = 0;
+    if (fits_read_key(f, TSTRING, "EXTNAME", value, nullptr, &st) == 0) h.extname = io_detail::Trim(value);
+    else h.extname = "HDU" + std::to_string(i);
+    st = 0;
+    if (fits_read_key(f, TSTRING, "BUNIT", value, nullptr, &st) == 0) h.bunit = io_detail::Trim(value);
+    fits_clear_errmsg();
+    h.naxes = {static_cast<long>(nax[0]), static_cast<long>(nax[1])};
+    h.type = bitpix == DOUBLE_IMG ? FitsPixelType::kFloat64
+             : bitpix == FLOAT_IMG ? FitsPixelType::kFloat32
+             : bitpix == SHORT_IMG || bitpix == BYTE_IMG ? FitsPixelType::kInt16
+                                                         : FitsPixelType::kInt32;
+    h.values.resize(static_cast<std::size_t>(nax[0] * nax[1]));
+    double nulval = std::numeric_limits<double>::quiet_NaN();
+    int anynul = 0;
+    if (fits_read_img(f, TDOUBLE, 1, static_cast<LONGLONG>(h.values.size()), &nulval, h.values.data(), &anynul, &status))
+      throw FitsError(where + " (EXTNAME '" + h.extname + "'): cannot read the data: " + CfitsioMessage(status));
+    char* header = nullptr;
+    int nkeys = 0;
+    if (fits_hdr2str(f, 1, nullptr, 0, &header, &nkeys, &status) == 0) {
+      std::string hdr(header);
+      fits_free_memory(header, &status);
+      io_detail::WcsHolder wcs;
+      std::string error;
+      if (io_detail::ParseHeaderWcs(hdr, nkeys, wcs, error)) {
+        std::string cards;
+        if (io_detail::WcsToCards(wcs.w, cards, error)) h.wcs_header = cards;
+      }
+    }
+    status = 0;
+    out.push_back(std::move(h));
+  }
+  return out;
+}
+
+}  // namespace zeeline

@@ -1,0 +1,114 @@
+#include "io/fits_util.hpp"
+
+#include <wcslib/wcserr.h>
+#include <wcslib/wcsutil.h>
+
+#include <cstdio>
+#include <mutex>
+
+namespace zeeline::io_detail {
+
+std::string CfitsioMessage(int status) {
+  char text[FLEN_STATUS] = {0};
+  fits_get_errstatus(status, text);
+  std::string out = "cfitsio status " + std::to_string(status) + ": " + text;
+  char msg[FLEN_ERRMSG] = {0};
+  int n = 0;
+  while (fits_read_errmsg(msg)) {
+    // The first few stack entries are the informative ones; drop the rest.
+    if (n < 3 && msg[0] != '\0') out += std::string("; ") + Trim(msg);
+    ++n;
+  }
+  return out;
+}
+
+std::string WcsMessage(const wcsprm& wcs, int status) {
+  if (wcs.err && wcs.err->msg && wcs.err->msg[0] != '\0') return std::string("wcslib: ") + wcs.err->msg;
+  return "wcslib status " + std::to_string(status);
+}
+
+void EnableWcsErrors() {
+  static std::once_flag once;
+  std::call_once(once, [] { wcserr_enable(1); });
+}
+
+std::vector<std::string> SplitCards(const std::string& header) {
+  std::vector<std::string> cards;
+  for (std::size_t i = 0; i < header.size(); i += 80) {
+    std::string card = header.substr(i, 80);
+    const std::string t = Trim(card);
+    if (t.empty()) continue;
+    cards.push_back(card.substr(0, card.find_last_not_of(' ') + 1));
+  }
+  return cards;
+}
+
+std::string CardKeyword(const std::string& card) { return Trim(card.substr(0, 8)); }
+
+std::string AsciiOnly(const std::string& s) {
+  std::string out = s;
+  for (char& c : out) {
+    const unsigned char u = static_cast<unsigned char>(c);
+    if (u < 32 || u > 126) c = '?';
+  }
+  return out;
+}
+
+std::string Trim(const std::string& s) {
+  const auto b = s.find_first_not_of(" \t\r\n");
+  if (b == std::string::npos) return "";
+  const auto e = s.find_last_not_of(" \t\r\n");
+  return s.substr(b, e - b + 1);
+}
+
+std::string Num(double v) {
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.10g", v);
+  return buf;
+}
+
+bool ParseHeaderWcs(const std::string& header, int nkeys, WcsHolder& out, std::string& error) {
+  EnableWcsErrors();
+  WcsArray arr;
+  int nreject = 0;
+  std::string copy = header;  // wcspih takes char*
+  const int st = wcspih(copy.data(), nkeys, WCSHDR_all, 0, &nreject, &arr.nwcs, &arr.wcs);
+  if (st != 0) {
+    error = "wcslib could not parse the header (wcspih status " + std::to_string(st) + ")";
+    return false;
+  }
+  if (arr.nwcs == 0) return false;
+  int alts[27];
+  wcsidx(arr.nwcs, &arr.wcs, alts);
+  const int index = alts[0] >= 0 ? alts[0] : 0;  // primary description (alternate ' ')
+  int nsub = 0;                                   // 0 = copy all axes
+  const int st2 = wcssub(1, &arr.wcs[index], &nsub, nullptr, &out.w);
+  if (st2 != 0) {
+    error = WcsMessage(arr.wcs[index], st2);
+    return false;
+  }
+  return true;
+}
+
+bool WcsToCards(wcsprm& wcs, std::string& cards, std::string& error) {
+  EnableWcsErrors();
+  char* out = nullptr;
+  int nrec = 0;
+  const int hs = wcshdo(WCSHDO_safe | WCSHDO_P17, &wcs, &nrec, &out);
+  if (hs != 0) {
+    error = WcsMessage(wcs, hs);
+    return false;
+  }
+  cards.clear();
+  for (const auto& card : SplitCards(std::string(out, static_cast<std::size_t>(nrec) * 80))) {
+    const std::string key = CardKeyword(card);
+    if (key == "COMMENT" || key.empty()) continue;
+    std::string padded = card;
+    padded.resize(80, ' ');
+    cards += padded;
+  }
+  wcsdealloc(out);
+  return true;
+}
+
+}  // namespace zeeline::io_detail

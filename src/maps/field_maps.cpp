@@ -1,0 +1,445 @@
+#include "zeeline/maps/field_maps.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <cstring>
+#include <fstream>
+#include <limits>
+#include <sstream>
+
+#ifdef _OPENMP
+#include <omp.h>
+#endif
+
+#include "zeeline/core/constants.hpp"
+#include "zeeline/core/errors.hpp"
+#include "zeeline/core/units.hpp"
+#include "zeeline/io/quality_flags.hpp"
+#include "zeeline/maps/centre_of_gravity.hpp"
+#include "zeeline/maps/full_splitting.hpp"
+#include "zeeline/maps/pixel_spectrum.hpp"
+
+namespace zeeline {
+namespace {
+
+constexpr double kRadToDeg = 180.0 / constants::kPi;
+const float kNaN = std::numeric_limits<float>::quiet_NaN();
+
+// Line window and continuum samples derived once from the wavelength grid (and, when not given, from the
+// spatially averaged I of the first tile).
+struct SpectralLayout {
+  double window_halfwidth_nm = 0.0;
+  std::vector<std::size_t> continuum;
+};
+
+SpectralLayout ChooseLayout(const std::vector<double>& wl, const std::vector<double>& mean_I,
+                            const FieldMapOptions& o) {
+  SpectralLayout lay;
+  const std::size_t n = wl.size();
+  const double half_range = 0.5 * (wl.back() - wl.front());
+  double window = o.window_halfwidth_nm;
+  if (window <= 0.0) {
+    // Continuum guess from the outer 10 % on each side; the line extends to where |Ic - I| drops below 2 %
+    // of its maximum; the window is 1.3 times that, at most 90 % of the half range.
+    const std::size_t edge = std::max<std::size_t>(2, n / 10);
+    double ic = 0.0;
+    for (std::size_t i = 0; i < edge; ++i) ic += mean_I[i] + mean_I[n - 1 - i];
+    ic /= static_cast<double>(2 * edge);
+    double max_depth = 0.0;
+    for (std::size_t i = 0; i < n; ++i) max_depth = std::max(max_depth, std::fabs(ic - mean_I[i]));
+    double extent = 0.0;
+    for (std::size_t i = 0; i < n; ++i)
+      if (std::fabs(ic - mean_I[i]) > 0.02 * max_depth)
+        extent = std::max(extent, std::fabs(wl[i] - o.rest_wavelength_nm));
+    window = std::min(std::max(1.3 * extent, 3.0 * (wl[1] - wl[0])), 0.9 * half_range);
+  }
+  lay.window_halfwidth_nm = window;
+  const double exclude = o.continuum_exclude_nm > 0.0 ? o.continuum_exclude_nm : window;
+  lay.continuum = ContinuumSamples(wl.data(), n, o.rest_wavelength_nm, exclude);
+  if (lay.continuum.size() < 4) {
+    lay.continuum.clear();
+    const std::size_t edge = std::max<std::size_t>(2, n / 10);
+    for (std::size_t i = 0; i < edge; ++i) {
+      lay.continuum.push_back(i);
+      lay.continuum.push_back(n - 1 - i);
+    }
+  }
+  return lay;
+}
+
+struct PixelOut {
+  float v[kSlotCount];
+  std::int16_t method = 0;
+  std::int32_t quality = 0;
+};
+
+// 1/e half-width of the line from the second moment of |Ic - I| in the window.
+double LineHalfWidth(const PixelSpectrum& s, double ic, double centre, double window) {
+  double m0 = 0.0, m1 = 0.0;
+  for (std::size_t i = 0; i < s.n; ++i) {
+    if (std::fabs(s.wavelength_nm[i] - centre) > window) continue;
+    const double d = std::fabs(ic - s.I[i]);
+    m0 += d;
+    m1 += d * s.wavelength_nm[i];
+  }
+  if (!(m0 > 0.0)) return std::nan("");
+  const double c = m1 / m0;
+  double m2 = 0.0;
+  for (std::size_t i = 0; i < s.n; ++i) {
+    if (std::fabs(s.wavelength_nm[i] - centre) > window) continue;
+    m2 += std::fabs(ic - s.I[i]) * (s.wavelength_nm[i] - c) * (s.wavelength_nm[i] - c);
+  }
+  return std::sqrt(2.0 * m2 / m0);
+}
+
+void SetVector(PixelOut& out, double blos, double blos_err, double bt, double bt_err) {
+  const double f = std::hypot(blos, bt);
+  out.v[kSlotBlos] = static_cast<float>(blos);
+  out.v[kSlotBlosErr] = static_cast<float>(blos_err);
+  out.v[kSlotBtrans] = static_cast<float>(bt);
+  out.v[kSlotBtransErr] = static_cast<float>(bt_err);
+  out.v[kSlotField] = static_cast<float>(f);
+  if (f > 0.0) {
+    out.v[kSlotFieldErr] = static_cast<float>(std::sqrt(blos * blos * blos_err * blos_err + bt * bt * bt_err * bt_err) / f);
+    out.v[kSlotInclination] = static_cast<float>(std::atan2(bt, blos) * kRadToDeg);
+    out.v[kSlotInclinationErr] =
+        static_cast<float>(std::sqrt(blos * blos * bt_err * bt_err + bt * bt * blos_err * blos_err) / (f * f) * kRadToDeg);
+  }
+}
+
+class PixelProcessor {
+ public:
+  PixelProcessor(const FieldMapOptions& o, const SpectralLayout& lay, bool has_qu, bool has_v)
+      : o_(o), lay_(lay), has_qu_(has_qu), has_v_(has_v) {
+    wfa_.rest_wavelength_nm = o.rest_wavelength_nm;
+    wfa_.g_eff = o.pattern.g_eff;
+    wfa_.G = o.pattern.G;
+    wfa_.window_halfwidth_nm = lay.window_halfwidth_nm;
+    wfa_.transverse = o.transverse;
+    wfa_.core_halfwidth_nm = o.core_halfwidth_nm;
+    wfa_.wing_start_nm = o.wing_start_nm;
+    cog_.rest_wavelength_nm = o.rest_wavelength_nm;
+    cog_.g_eff = o.pattern.g_eff;
+    cog_.window_halfwidth_nm = lay.window_halfwidth_nm;
+    split_.rest_wavelength_nm = o.rest_wavelength_nm;
+    split_.g_eff = o.pattern.g_eff;
+    split_.window_halfwidth_nm = lay.window_halfwidth_nm;
+    split_.resolution_ratio = o.resolution_ratio;
+    lorentz_per_gauss_ = LorentzUnit_nm(o.rest_wavelength_nm, 1.0);
+  }
+
+  void Process(const PixelSpectrum& s, bool nonfinite, PixelOut& out) {
+    for (float& x : out.v) x = kNaN;
+    out.method = 0;
+    out.quality = 0;
+    if (nonfinite) {
+      out.quality = kQualityNonFiniteInput;
+      return;
+    }
+    const ContinuumEstimate c = EstimateContinuum(s, lay_.continuum, o_.noise_rel);
+    if (!std::isfinite(c.continuum)) {
+      out.quality = kQualityNoContinuum;
+      return;
+    }
+    const WeakFieldResult w = WeakFieldEstimate(s, c, wfa_, wfa_work_);
+    CentreOfGravityResult g;
+    if (has_v_) g = CentreOfGravityEstimate(s, c, cog_);
+
+    MapMethod m = o_.method;
+    bool out_of_range = false;
+    SplittingResult sp;
+    if (m == MapMethod::kAuto || m == MapMethod::kWeakField) {
+      const double b = std::hypot(w.has_blos ? w.blos_gauss : 0.0, w.has_btrans ? w.btrans_gauss : 0.0);
+      const double width = LineHalfWidth(s, c.continuum, o_.rest_wavelength_nm, lay_.window_halfwidth_nm);
+      const double ratio = std::fabs(o_.pattern.g_eff) * lorentz_per_gauss_ * b / width;
+      if (m == MapMethod::kWeakField) {
+        out_of_range = !(ratio < o_.weak_ratio);
+      } else if (ratio < o_.weak_ratio) {
+        m = MapMethod::kWeakField;
+      } else {
+        sp = FullSplittingEstimate(s, c, split_);
+        if (sp.ok && sp.resolved) {
+          m = MapMethod::kSplitting;
+        } else {
+          m = has_v_ ? MapMethod::kCentreOfGravity : MapMethod::kWeakField;
+          out_of_range = !has_v_;
+        }
+      }
+    } else if (m == MapMethod::kSplitting) {
+      sp = FullSplittingEstimate(s, c, split_);
+      out_of_range = !sp.resolved;
+    }
+    out.method = static_cast<std::int16_t>(m);
+
+    switch (m) {
+      case MapMethod::kWeakField:
+        if (w.has_btrans) {
+          SetVector(out, w.has_blos ? w.blos_gauss : 0.0, w.has_blos ? w.blos_err_gauss : 0.0, w.btrans_gauss,
+                    w.btrans_err_gauss);
+          if (!w.has_blos) out.v[kSlotBlos] = out.v[kSlotBlosErr] = kNaN;
+        } else if (w.has_blos) {
+          out.v[kSlotBlos] = static_cast<float>(w.blos_gauss);
+          out.v[kSlotBlosErr] = static_cast<float>(w.blos_err_gauss);
+        }
+        break;
+      case MapMethod::kCentreOfGravity:
+        if (g.ok) {
+          out.v[kSlotBlos] = static_cast<float>(g.blos_gauss);
+          out.v[kSlotBlosErr] = static_cast<float>(g.blos_err_gauss);
+        }
+        if (o_.method == MapMethod::kAuto && w.has_btrans && g.ok) {
+          // Auto fallback: transverse field from the weak-field fit, outside its validity range.
+          SetVector(out, g.blos_gauss, g.blos_err_gauss, w.btrans_gauss, w.btrans_err_gauss);
+          out_of_range = true;
+        }
+        break;
+      case MapMethod::kSplitting: {
+        const double f = sp.field_gauss, fe = sp.field_err_gauss;
+        out.v[kSlotField] = static_cast<float>(f);
+        out.v[kSlotFieldErr] = static_cast<float>(fe);
+        out.v[kSlotChi2] = static_cast<float>(sp.chi2_reduced);
+        if (g.ok && f > 0.0) {
+          const double l = std::clamp(g.blos_gauss, -f, f), le = g.blos_err_gauss;
+          const double bt = std::sqrt(std::max(f * f - l * l, 0.0));
+          out.v[kSlotBlos] = static_cast<float>(g.blos_gauss);
+          out.v[kSlotBlosErr] = static_cast<float>(le);
+          out.v[kSlotBtrans] = static_cast<float>(bt);
+          out.v[kSlotBtransErr] = static_cast<float>(bt > 0.0 ? std::hypot(f * fe, l * le) / bt : fe);
+          out.v[kSlotInclination] = static_cast<float>(std::acos(l / f) * kRadToDeg);
+          const double root = std::sqrt(std::max(1.0 - (l / f) * (l / f), 1e-12));
+          out.v[kSlotInclinationErr] = static_cast<float>(std::hypot(le / f, l * fe / (f * f)) / root * kRadToDeg);
+        }
+        break;
+      }
+      default:
+        break;
+    }
+    // Velocity: the splitting fit's centre when it was used, otherwise the centroid of I +- V.
+    if (m == MapMethod::kSplitting) {
+      out.v[kSlotVlos] = static_cast<float>(sp.vlos_kms);
+      out.v[kSlotVlosErr] = static_cast<float>(sp.vlos_err_kms);
+    } else if (g.ok) {
+      out.v[kSlotVlos] = static_cast<float>(g.vlos_kms);
+      out.v[kSlotVlosErr] = static_cast<float>(g.vlos_err_kms);
+    }
+    // Azimuth: angle of the linear-polarisation regression, whatever the regime.
+    if (w.has_btrans && m != MapMethod::kCentreOfGravity) {
+      out.v[kSlotAzimuth] = static_cast<float>(w.azimuth_deg);
+      out.v[kSlotAzimuthErr] = static_cast<float>(w.azimuth_err_deg);
+    } else if (w.has_btrans && o_.method == MapMethod::kAuto) {
+      out.v[kSlotAzimuth] = static_cast<float>(w.azimuth_deg);
+      out.v[kSlotAzimuthErr] = static_cast<float>(w.azimuth_err_deg);
+    }
+
+    if (out_of_range) out.quality |= kQualityOutOfRange;
+    const double k = o_.detection_sigma;
+    const bool blos_seen = std::isfinite(out.v[kSlotBlos]) && std::fabs(out.v[kSlotBlos]) > k * out.v[kSlotBlosErr];
+    const bool bt_seen = std::isfinite(out.v[kSlotBtrans]) && out.v[kSlotBtrans] > k * out.v[kSlotBtransErr];
+    const bool field_seen = m == MapMethod::kSplitting && std::isfinite(out.v[kSlotField]) &&
+                            out.v[kSlotField] > k * out.v[kSlotFieldErr];
+    if (!blos_seen && !bt_seen && !field_seen) out.quality |= kQualityLowSignal;
+    if (m == MapMethod::kSplitting && !(sp.ok)) out.quality |= kQualityNotConverged;
+  }
+
+ private:
+  const FieldMapOptions& o_;
+  const SpectralLayout& lay_;
+  bool has_qu_, has_v_;
+  WeakFieldOptions wfa_;
+  CentreOfGravityOptions cog_;
+  SplittingOptions split_;
+  WeakFieldWorkspace wfa_work_;
+  double lorentz_per_gauss_ = 0.0;
+};
+
+// ---- checkpoints: a small binary file rewritten (temp + rename) after every tile.
+constexpr char kCheckpointMagic[8] = {'Z', 'L', 'C', 'K', 'P', 'T', '0', '1'};
+
+void SaveCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+  const std::string tmp = path + ".tmp";
+  {
+    std::ofstream out(tmp, std::ios::binary | std::ios::trunc);
+    if (!out) throw FitsError(path + ": cannot write the checkpoint file");
+    out.write(kCheckpointMagic, 8);
+    const std::uint64_t flen = fingerprint.size();
+    out.write(reinterpret_cast<const char*>(&flen), sizeof flen);
+    out.write(fingerprint.data(), static_cast<std::streamsize>(flen));
+    const std::int64_t header[4] = {m.nx, m.ny, m.rows_done, kSlotCount};
+    out.write(reinterpret_cast<const char*>(header), sizeof header);
+    out.write(reinterpret_cast<const char*>(m.method_counts), sizeof m.method_counts);
+    const std::size_t np = static_cast<std::size_t>(m.nx * m.rows_done);
+    for (const auto& s : m.slots) out.write(reinterpret_cast<const char*>(s.data()), static_cast<std::streamsize>(np * sizeof(float)));
+    out.write(reinterpret_cast<const char*>(m.method.data()), static_cast<std::streamsize>(np * sizeof(std::int16_t)));
+    out.write(reinterpret_cast<const char*>(m.quality.data()), static_cast<std::streamsize>(np * sizeof(std::int32_t)));
+    if (!out) throw FitsError(path + ": writing the checkpoint failed (disk full?)");
+  }
+  if (std::rename(tmp.c_str(), path.c_str()) != 0) throw FitsError(path + ": cannot rename the checkpoint into place");
+}
+
+bool LoadCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) return false;
+  char magic[8];
+  in.read(magic, 8);
+  if (!in || std::memcmp(magic, kCheckpointMagic, 8) != 0)
+    throw FitsError(path + ": not a zeeline checkpoint (bad magic); remove it or run without --resume");
+  std::uint64_t flen = 0;
+  in.read(reinterpret_cast<char*>(&flen), sizeof flen);
+  if (!in || flen > (1u << 20)) throw FitsError(path + ": corrupt checkpoint header");
+  std::string fp(flen, '\0');
+  in.read(fp.data(), static_cast<std::streamsize>(flen));
+  if (fp != fingerprint)
+    throw FitsError(path + ": the checkpoint was made from another input or other options; remove it to start again");
+  std::int64_t header[4];
+  in.read(reinterpret_cast<char*>(header), sizeof header);
+  if (!in || header[0] != m.nx || header[1] != m.ny || header[3] != kSlotCount || header[2] < 0 || header[2] > m.ny)
+    throw FitsError(path + ": checkpoint dimensions do not match the cube");
+  m.rows_done = header[2];
+  in.read(reinterpret_cast<char*>(m.method_counts), sizeof m.method_counts);
+  const std::size_t np = static_cast<std::size_t>(m.nx * m.rows_done);
+  for (auto& s : m.slots) in.read(reinterpret_cast<char*>(s.data()), static_cast<std::streamsize>(np * sizeof(float)));
+  in.read(reinterpret_cast<char*>(m.method.data()), static_cast<std::streamsize>(np * sizeof(std::int16_t)));
+  in.read(reinterpret_cast<char*>(m.quality.data()), static_cast<std::streamsize>(np * sizeof(std::int32_t)));
+  if (!in) throw FitsError(path + ": checkpoint is truncated");
+  return true;
+}
+
+}  // namespace
+
+const char* MapSlotName(int slot) {
+  static const char* kNames[kSlotCount] = {"FIELD",  "FIELD_ERR",  "INCLINATION", "INCLINATION_ERR", "AZIMUTH",
+                                           "AZIMUTH_ERR", "BLOS", "BLOS_ERR", "BTRANS", "BTRANS_ERR",
+                                           "VLOS",   "VLOS_ERR",   "CHI2"};
+  return (slot >= 0 && slot < kSlotCount) ? kNames[slot] : "?";
+}
+
+std::string FieldMapOptions::Validate() const {
+  std::ostringstream m;
+  if (!(rest_wavelength_nm > 0.0) || !std::isfinite(rest_wavelength_nm))
+    m << "rest wavelength = " << rest_wavelength_nm << " nm must be positive (give --wavelength or --line)";
+  else if (!(std::fabs(pattern.g_eff) > 1e-6))
+    m << "g_eff = " << pattern.g_eff << ": the line is magnetically insensitive; choose another line";
+  else if (!(window_halfwidth_nm >= 0.0)) m << "window half-width = " << window_halfwidth_nm << " nm must be >= 0";
+  else if (!(continuum_exclude_nm >= 0.0)) m << "continuum exclusion = " << continuum_exclude_nm << " nm must be >= 0";
+  else if (!(noise_rel >= 0.0) || noise_rel > 1.0) m << "noise = " << noise_rel << " must be in [0, 1] of the continuum";
+  else if (!(weak_ratio > 0.0) || weak_ratio > 5.0) m << "weak ratio = " << weak_ratio << " must be in (0, 5]";
+  else if (!(resolution_ratio > 0.0)) m << "resolution ratio = " << resolution_ratio << " must be > 0";
+  else if (!(detection_sigma >= 0.0)) m << "detection sigma = " << detection_sigma << " must be >= 0";
+  else if (threads < 0 || threads > 1024) m << "threads = " << threads << " must be in [0, 1024]";
+  else if (method == MapMethod::kMilneEddington) m << "method 'me' is not available in this build";
+  else if ((transverse == TransverseRegion::kWings || transverse == TransverseRegion::kCoreAndWings) && !(wing_start_nm > 0.0))
+    m << "transverse region '" << ToString(transverse) << "' needs a wing start > 0 nm";
+  return m.str();
+}
+
+RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const FieldMapRunOptions& run, FieldMaps& maps) {
+  const std::string problem = o.Validate();
+  if (!problem.empty()) throw OptionError(problem);
+  const CubeInfo& info = reader.info();
+  const int si = info.StokesIndex(StokesParameter::kI), sq = info.StokesIndex(StokesParameter::kQ),
+            su = info.StokesIndex(StokesParameter::kU), sv = info.StokesIndex(StokesParameter::kV);
+  std::string present;
+  for (auto s : info.stokes) present += ToString(s);
+  if (si < 0)
+    throw FitsError(info.path + ": the STOKES axis holds " + present + " but every method needs Stokes I (code 1)");
+  const bool has_qu = sq >= 0 && su >= 0, has_v = sv >= 0;
+  if (o.need_transverse && !has_qu)
+    throw FitsError(info.path + ": the STOKES axis holds " + present +
+                    " only; BTRANS, AZIMUTH, FIELD and INCLINATION need Stokes Q and U (codes 2 and 3)");
+  if (!has_v && (o.method == MapMethod::kWeakField || o.method == MapMethod::kCentreOfGravity))
+    throw FitsError(info.path + ": the STOKES axis holds " + present + "; method '" + ToString(o.method) +
+                    "' needs Stokes V (code 4) for BLOS");
+  if (info.wavelength_nm.size() < 10)
+    throw FitsError(info.path + ": the spectral axis has " + std::to_string(info.wavelength_nm.size()) +
+                    " samples; at least 10 are needed");
+  if (o.rest_wavelength_nm < info.wavelength_nm.front() || o.rest_wavelength_nm > info.wavelength_nm.back()) {
+    std::ostringstream m;
+    m.precision(10);
+    m << info.path << ": the rest wavelength " << o.rest_wavelength_nm << " nm (" << ToString(info.frame)
+      << ") lies outside the cube's spectral range " << info.wavelength_nm.front() << " - "
+      << info.wavelength_nm.back() << " nm; check the line and the air/vacuum frame";
+    throw FitsError(m.str());
+  }
+
+  maps.nx = info.nx;
+  maps.ny = info.ny;
+  maps.has_transverse = has_qu;
+  const std::size_t np = static_cast<std::size_t>(info.nx * info.ny);
+  maps.slots.assign(kSlotCount, std::vector<float>(np, kNaN));
+  maps.method.assign(np, 0);
+  maps.quality.assign(np, static_cast<std::int32_t>(kQualityMasked));
+  maps.rows_done = 0;
+  std::fill(std::begin(maps.method_counts), std::end(maps.method_counts), 0);
+  if (run.resume && !run.checkpoint_path.empty()) LoadCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+
+  const std::size_t nw = info.wavelength_nm.size();
+  CubeTile tile;
+  const long rows_per_tile = reader.rows_per_tile();
+  SpectralLayout layout;
+  int threads = o.threads;
+#ifdef _OPENMP
+  if (threads <= 0) threads = omp_get_max_threads();
+#else
+  threads = 1;
+#endif
+
+  // The spectral layout always comes from the first tile, so a resumed run makes the same choices.
+  {
+    reader.ReadRows(0, std::min(rows_per_tile, info.ny), tile);
+    std::vector<double> mean_I(nw, 0.0);
+    std::vector<long> count(nw, 0);
+    for (long p = 0; p < tile.n_pixels(); ++p) {
+      if (tile.nonfinite[static_cast<std::size_t>(p)]) continue;
+      const double* I = tile.Spectrum(p, si);
+      for (std::size_t k = 0; k < nw; ++k) {
+        mean_I[k] += I[k];
+        ++count[k];
+      }
+    }
+    for (std::size_t k = 0; k < nw; ++k) mean_I[k] = count[k] ? mean_I[k] / static_cast<double>(count[k]) : 0.0;
+    layout = ChooseLayout(info.wavelength_nm, mean_I, o);
+  }
+
+  for (long y0 = maps.rows_done; y0 < info.ny; y0 += rows_per_tile) {
+    if (run.cancel && run.cancel->load()) {
+      if (!run.checkpoint_path.empty()) SaveCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+      return RunStatus::kCancelled;
+    }
+    const long rows = std::min(rows_per_tile, info.ny - y0);
+    reader.ReadRows(y0, rows, tile);
+    const long npix = tile.n_pixels();
+    std::int64_t counts[5] = {0, 0, 0, 0, 0};
+#pragma omp parallel num_threads(threads)
+    {
+      PixelProcessor proc(o, layout, has_qu, has_v);
+      PixelOut out;
+      std::int64_t local[5] = {0, 0, 0, 0, 0};
+#pragma omp for schedule(dynamic, 16)
+      for (long p = 0; p < npix; ++p) {
+        PixelSpectrum s;
+        s.wavelength_nm = info.wavelength_nm.data();
+        s.n = nw;
+        s.I = tile.Spectrum(p, si);
+        s.Q = has_qu ? tile.Spectrum(p, sq) : nullptr;
+        s.U = has_qu ? tile.Spectrum(p, su) : nullptr;
+        s.V = has_v ? tile.Spectrum(p, sv) : nullptr;
+        proc.Process(s, tile.nonfinite[static_cast<std::size_t>(p)] != 0, out);
+        const std::size_t g = static_cast<std::size_t>(y0 * info.nx + p);
+        for (int k = 0; k < kSlotCount; ++k) maps.slots[static_cast<std::size_t>(k)][g] = out.v[k];
+        maps.method[g] = out.method;
+        maps.quality[g] = out.quality;
+        if (out.method >= 0 && out.method < 5) ++local[out.method];
+      }
+#pragma omp critical
+      for (int k = 0; k < 5; ++k) counts[k] += local[k];
+    }
+    for (int k = 0; k < 5; ++k) maps.method_counts[k] += counts[k];
+    maps.rows_done = y0 + rows;
+    if (!run.checkpoint_path.empty()) SaveCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+    if (run.progress) run.progress(maps.rows_done, info.ny);
+  }
+  return RunStatus::kComplete;
+}
+
+}  // namespace zeeline

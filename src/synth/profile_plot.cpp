@@ -1,0 +1,162 @@
+#include "synth/profile_plot.hpp"
+
+#include <cairo.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <memory>
+#include <vector>
+
+#include "zeeline/core/constants.hpp"
+
+namespace zeeline {
+namespace {
+
+// A "nice" tick step (1, 2 or 5 times a power of ten) giving about `target` intervals over `span`.
+double NiceStep(double span, int target) {
+  if (!(span > 0.0)) return 1.0;
+  const double raw = span / target;
+  const double p = std::pow(10.0, std::floor(std::log10(raw)));
+  const double m = raw / p;
+  return (m < 1.5 ? 1.0 : m < 3.5 ? 2.0 : m < 7.5 ? 5.0 : 10.0) * p;
+}
+
+std::string Format(double v, double step) {
+  const int decimals = std::max(0, static_cast<int>(-std::floor(std::log10(step) + 1e-9)));
+  char buf[64];
+  if (std::fabs(v) < 1e-12 * step) v = 0.0;
+  std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
+  return buf;
+}
+
+struct Panel {
+  double x0, y0, w, h;  // pixel box of the data area
+  double xmin, xmax, ymin, ymax;
+  double X(double x) const { return x0 + (x - xmin) / (xmax - xmin) * w; }
+  double Y(double y) const { return y0 + h - (y - ymin) / (ymax - ymin) * h; }
+};
+
+void Text(cairo_t* cr, double x, double y, const std::string& s, double align_x, double align_y) {
+  cairo_text_extents_t e;
+  cairo_text_extents(cr, s.c_str(), &e);
+  cairo_move_to(cr, x - align_x * e.width - e.x_bearing, y - align_y * e.height - e.y_bearing);
+  cairo_show_text(cr, s.c_str());
+}
+
+void DrawPanel(cairo_t* cr, const Panel& p, const Eigen::ArrayXd& x, const Eigen::ArrayXd& y,
+               const std::string& ylabel, bool xlabels, const std::string& xlabel) {
+  // frame
+  cairo_set_source_rgb(cr, 0, 0, 0);
+  cairo_set_line_width(cr, 1.0);
+  cairo_rectangle(cr, p.x0, p.y0, p.w, p.h);
+  cairo_stroke(cr);
+  cairo_set_font_size(cr, 13.0);
+  // x ticks
+  const double xs = NiceStep(p.xmax - p.xmin, 6);
+  for (double t = std::ceil(p.xmin / xs) * xs; t <= p.xmax + 1e-9 * xs; t += xs) {
+    const double px = p.X(t);
+    cairo_move_to(cr, px, p.y0 + p.h);
+    cairo_line_to(cr, px, p.y0 + p.h - 6);
+    cairo_move_to(cr, px, p.y0);
+    cairo_line_to(cr, px, p.y0 + 6);
+    cairo_stroke(cr);
+    if (xlabels) Text(cr, px, p.y0 + p.h + 6, Format(t, xs), 0.5, 0.0);
+  }
+  // y ticks
+  const double ys = NiceStep(p.ymax - p.ymin, 4);
+  for (double t = std::ceil(p.ymin / ys) * ys; t <= p.ymax + 1e-9 * ys; t += ys) {
+    const double py = p.Y(t);
+    cairo_move_to(cr, p.x0, py);
+    cairo_line_to(cr, p.x0 + 6, py);
+    cairo_move_to(cr, p.x0 + p.w, py);
+    cairo_line_to(cr, p.x0 + p.w - 6, py);
+    cairo_stroke(cr);
+    Text(cr, p.x0 - 6, py, Format(t, ys), 1.0, 0.5);
+  }
+  // zero line
+  if (p.ymin < 0.0 && p.ymax > 0.0) {
+    cairo_set_source_rgb(cr, 0.6, 0.6, 0.6);
+    const double dash = 4.0;
+    cairo_set_dash(cr, &dash, 1, 0.0);
+    cairo_move_to(cr, p.x0, p.Y(0.0));
+    cairo_line_to(cr, p.x0 + p.w, p.Y(0.0));
+    cairo_stroke(cr);
+    cairo_set_dash(cr, nullptr, 0, 0.0);
+  }
+  // axis labels
+  cairo_set_source_rgb(cr, 0, 0, 0);
+  cairo_set_font_size(cr, 15.0);
+  cairo_save(cr);
+  cairo_translate(cr, p.x0 - 70, p.y0 + 0.5 * p.h);
+  cairo_rotate(cr, -0.5 * constants::kPi);
+  Text(cr, 0, 0, ylabel, 0.5, 0.5);
+  cairo_restore(cr);
+  if (xlabels) Text(cr, p.x0 + 0.5 * p.w, p.y0 + p.h + 30, xlabel, 0.5, 0.0);
+  // data
+  cairo_save(cr);
+  cairo_rectangle(cr, p.x0, p.y0, p.w, p.h);
+  cairo_clip(cr);
+  cairo_set_source_rgb(cr, 0.05, 0.25, 0.65);
+  cairo_set_line_width(cr, 1.6);
+  for (Eigen::Index i = 0; i < x.size(); ++i) {
+    if (i == 0)
+      cairo_move_to(cr, p.X(x[i]), p.Y(y[i]));
+    else
+      cairo_line_to(cr, p.X(x[i]), p.Y(y[i]));
+  }
+  cairo_stroke(cr);
+  cairo_restore(cr);
+}
+
+}  // namespace
+
+void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelength_nm, const StokesArray& stokes,
+                        const StokesPlotOptions& o) {
+  if (wavelength_nm.size() < 2 || stokes.rows() != wavelength_nm.size())
+    throw PlotError("plot " + path + ": need at least two wavelengths and one Stokes row per wavelength");
+  if (!(o.continuum != 0.0) || !std::isfinite(o.continuum))
+    throw PlotError("plot " + path + ": continuum must be finite and non-zero");
+  std::unique_ptr<cairo_surface_t, decltype(&cairo_surface_destroy)> surface(
+      cairo_image_surface_create(CAIRO_FORMAT_RGB24, o.width_px, o.height_px), &cairo_surface_destroy);
+  std::unique_ptr<cairo_t, decltype(&cairo_destroy)> context(cairo_create(surface.get()), &cairo_destroy);
+  cairo_t* cr = context.get();
+  cairo_set_source_rgb(cr, 1, 1, 1);
+  cairo_paint(cr);
+  cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
+
+  const double span = wavelength_nm[wavelength_nm.size() - 1] - wavelength_nm[0];
+  const bool in_pm = span < 1.0;
+  const Eigen::ArrayXd x = (wavelength_nm - o.centre_nm) * (in_pm ? 1e3 : 1.0);
+  char xlabel[160];
+  std::snprintf(xlabel, sizeof xlabel, "wavelength - %.4f nm  [%s]", o.centre_nm, in_pm ? "pm" : "nm");
+
+  const double left = 100, right = 30, top = o.title.empty() ? 30 : 60, bottom = 70, gap = 18;
+  const double ph = (o.height_px - top - bottom - 3 * gap) / 4.0;
+  const double pw = o.width_px - left - right;
+  const char* labels[4] = {"I", "Q / Ic", "U / Ic", "V / Ic"};
+  for (int c = 0; c < 4; ++c) {
+    Eigen::ArrayXd y = stokes.col(c);
+    if (c > 0) y /= o.continuum;
+    double lo = y.minCoeff(), hi = y.maxCoeff();
+    if (c > 0) {  // polarisation panels symmetric about zero
+      const double m = std::max(std::fabs(lo), std::fabs(hi));
+      lo = -m;
+      hi = m;
+    }
+    double pad = 0.08 * (hi - lo);
+    if (!(pad > 0.0)) pad = std::max(1e-3, 0.05 * std::fabs(hi));
+    Panel p{left, top + c * (ph + gap), pw, ph, x[0], x[x.size() - 1], lo - pad, hi + pad};
+    DrawPanel(cr, p, x, y, labels[c], c == 3, xlabel);
+  }
+  if (!o.title.empty()) {
+    cairo_set_font_size(cr, 16.0);
+    Text(cr, left + 0.5 * pw, 22, o.title, 0.5, 0.5);
+  }
+  cairo_surface_flush(surface.get());
+  const cairo_status_t status = cairo_surface_write_to_png(surface.get(), path.c_str());
+  if (status != CAIRO_STATUS_SUCCESS)
+    throw PlotError("cannot write PNG " + path + ": " + cairo_status_to_string(status));
+}
+
+}  // namespace zeeline
