@@ -25,5 +25,6 @@ void AddLineCommand(CLI::App& app);
 void AddProfileCommand(CLI::App& app);
 /// argc/argv are recorded in the output provenance.
 void AddMapCommand(CLI::App& app, int argc, char** argv);
+void AddSynthCommand(CLI::App& app, int argc, char** argv);
 
 }  // namespace zeeline::cli

@@ -18,6 +18,7 @@ int main(int argc, char** argv) {
   zeeline::cli::AddLineCommand(app);
   zeeline::cli::AddProfileCommand(app);
   zeeline::cli::AddMapCommand(app, argc, argv);
+  zeeline::cli::AddSynthCommand(app, argc, argv);
 
   try {
     app.parse(argc, argv);

@@ -150,7 +150,10 @@ class PixelProcessor {
     bool out_of_range = false;
     SplittingResult sp;
     if (m == MapMethod::kAuto || m == MapMethod::kWeakField) {
-      const double b = std::hypot(w.has_blos ? w.blos_gauss : 0.0, w.has_btrans ? w.btrans_gauss : 0.0);
+      // Strength proxy: the weak-field answer saturates (and can collapse) for strong fields, so the
+      // longitudinal part takes the larger of the weak-field and centre-of-gravity values.
+      const double los = std::max(w.has_blos ? std::fabs(w.blos_gauss) : 0.0, g.ok ? std::fabs(g.blos_gauss) : 0.0);
+      const double b = std::hypot(los, w.has_btrans ? w.btrans_gauss : 0.0);
       const double width = LineHalfWidth(s, c.continuum, o_.rest_wavelength_nm, lay_.window_halfwidth_nm);
       const double ratio = std::fabs(o_.pattern.g_eff) * lorentz_per_gauss_ * b / width;
       if (m == MapMethod::kWeakField) {

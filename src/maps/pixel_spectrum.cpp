@@ -20,22 +20,41 @@ std::vector<std::size_t> ContinuumSamples(const double* wavelength_nm, std::size
 }
 
 namespace {
-// Mean and standard deviation (about the mean) over the samples, skipping non-finite values.
-void MeanStd(const double* f, const std::vector<std::size_t>& idx, double* mean, double* sd) {
-  double s = 0.0, s2 = 0.0;
+// Mean over the samples, skipping non-finite values.
+double Mean(const double* f, const std::vector<std::size_t>& idx) {
+  double s = 0.0;
   std::size_t k = 0;
   for (std::size_t i : idx) {
     if (!std::isfinite(f[i])) continue;
     s += f[i];
     ++k;
   }
-  *mean = k ? s / static_cast<double>(k) : std::nan("");
+  return k ? s / static_cast<double>(k) : std::nan("");
+}
+
+// White-noise sigma from second differences of consecutive samples, sigma^2 = <(f[i-1] - 2f[i] + f[i+1])^2>/6,
+// which removes the mean and any linear trend (e.g. the far wing of a damped line) from the estimate.
+// Falls back to the standard deviation about the mean when there are fewer than 3 consecutive triples.
+double NoiseSigma(const double* f, const std::vector<std::size_t>& idx) {
+  double s2 = 0.0;
+  std::size_t k = 0;
+  for (std::size_t j = 1; j + 1 < idx.size(); ++j) {
+    if (idx[j - 1] + 1 != idx[j] || idx[j] + 1 != idx[j + 1]) continue;
+    const double d = f[idx[j - 1]] - 2.0 * f[idx[j]] + f[idx[j + 1]];
+    if (!std::isfinite(d)) continue;
+    s2 += d * d;
+    ++k;
+  }
+  if (k >= 3) return std::sqrt(s2 / (6.0 * static_cast<double>(k)));
+  const double m = Mean(f, idx);
+  double v = 0.0;
+  k = 0;
   for (std::size_t i : idx) {
     if (!std::isfinite(f[i])) continue;
-    const double d = f[i] - *mean;
-    s2 += d * d;
+    v += (f[i] - m) * (f[i] - m);
+    ++k;
   }
-  *sd = k > 1 ? std::sqrt(s2 / static_cast<double>(k - 1)) : std::nan("");
+  return k > 1 ? std::sqrt(v / static_cast<double>(k - 1)) : std::nan("");
 }
 }  // namespace
 
@@ -43,11 +62,11 @@ ContinuumEstimate EstimateContinuum(const PixelSpectrum& s, const std::vector<st
                                     double given_noise_rel) {
   ContinuumEstimate c;
   c.samples = samples.size();
-  double unused;
-  MeanStd(s.I, samples, &c.continuum, &c.noise_I);
-  if (s.Q) MeanStd(s.Q, samples, &unused, &c.noise_Q);
-  if (s.U) MeanStd(s.U, samples, &unused, &c.noise_U);
-  if (s.V) MeanStd(s.V, samples, &unused, &c.noise_V);
+  c.continuum = Mean(s.I, samples);
+  c.noise_I = NoiseSigma(s.I, samples);
+  if (s.Q) c.noise_Q = NoiseSigma(s.Q, samples);
+  if (s.U) c.noise_U = NoiseSigma(s.U, samples);
+  if (s.V) c.noise_V = NoiseSigma(s.V, samples);
   if (given_noise_rel > 0.0) {
     const double sigma = given_noise_rel * std::fabs(c.continuum);
     c.noise_I = c.noise_Q = c.noise_U = c.noise_V = sigma;

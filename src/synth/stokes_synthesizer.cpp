@@ -15,7 +15,7 @@ InstrumentProfileOptions CombinedKernel(const std::vector<MeLine>& lines, const 
   return k;
 }
 
-double GridStep(const Eigen::ArrayXd& w, bool require_uniform) {
+double GridStep(const Eigen::ArrayXd& w, bool require_uniform) {  // mean step; checks uniformity if asked
   if (w.size() < 2) throw OptionError("wavelength grid has " + std::to_string(w.size()) + " points (need >= 2)");
   const double step = (w[w.size() - 1] - w[0]) / static_cast<double>(w.size() - 1);
   if (!require_uniform) return step;
@@ -50,12 +50,12 @@ StokesSynthesizer::StokesSynthesizer(const std::vector<MeLine>& lines, const Eig
     : model_(lines, options.me),
       wavelength_nm_(wavelength_nm),
       gaussian_fwhm_nm_(CombinedKernel(lines, options).gaussian_fwhm_nm),
-      convolver_(static_cast<int>(std::max<Eigen::Index>(wavelength_nm.size(), 2)),
-                 std::fabs(GridStep(wavelength_nm, false)) > 0.0 ? std::fabs(GridStep(wavelength_nm, false)) : 1.0,
+      // The step matters only for a real kernel; then the grid must be ascending and uniform (throws).
+      convolver_(static_cast<int>(wavelength_nm.size()),
+                 CombinedKernel(lines, options).IsIdentity() ? 1.0 : GridStep(wavelength_nm, true),
                  CombinedKernel(lines, options)) {
   const std::string problem = options.Validate();
   if (!problem.empty()) throw OptionError("synthesis options: " + problem);
-  if (!convolver_.is_identity()) GridStep(wavelength_nm, true);
 }
 
 void StokesSynthesizer::Synthesize(const MeParameters& p, StokesArray& stokes, StokesJacobian* jacobian) {

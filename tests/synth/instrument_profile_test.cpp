@@ -6,7 +6,10 @@
 #include <gtest/gtest.h>
 
 #include "synth/synth_test_util.hpp"
+#include "zeeline/atomic/level.hpp"
+#include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/core/errors.hpp"
+#include "zeeline/synth/stokes_synthesizer.hpp"
 
 namespace zeeline {
 namespace {
@@ -149,6 +152,29 @@ TEST(InstrumentProfile, InvalidOptionsAreRejectedWithTheFieldName) {
   Eigen::ArrayXd wrong(11);
   wrong.setOnes();
   EXPECT_THROW(conv.Apply(wrong), OptionError);
+}
+
+}  // namespace
+}  // namespace zeeline
+
+namespace zeeline {
+namespace {
+
+// The per-pixel synthesizer needs a uniform ascending grid as soon as a convolution is requested.
+TEST(InstrumentProfile, SynthesizerRejectsNonUniformGridOnlyWhenConvolving) {
+  MeLine line;
+  line.wavelength_nm = 630.2494;
+  line.pattern = ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0"));
+  Eigen::ArrayXd w(4);
+  w << 630.20, 630.21, 630.23, 630.24;
+  EXPECT_NO_THROW(StokesSynthesizer({line}, w, SynthesisOptions{}));
+  SynthesisOptions o;
+  o.instrument.gaussian_fwhm_nm = 2e-3;
+  EXPECT_THROW(StokesSynthesizer({line}, w, o), OptionError);
+  EXPECT_THROW(StokesSynthesizer({line}, Eigen::ArrayXd::Constant(4, 630.2), o), OptionError);
+  o = SynthesisOptions{};
+  o.macroturbulence_kms = -1.0;
+  EXPECT_THROW(StokesSynthesizer({line}, UniformWavelengthGrid(630.25, 0.1, 11), o), OptionError);
 }
 
 }  // namespace

@@ -6,7 +6,7 @@
 //   cog    centre of gravity (centre_of_gravity.hpp): BLOS, VLOS
 //   split  resolved splitting (full_splitting.hpp): FIELD, VLOS; BLOS from cog; INCLINATION from both;
 //          AZIMUTH from the linear-polarisation regression of the weak-field fit (angle only)
-//   auto   per pixel: r = g_eff Delta lambda_B(|B_wfa|) / w, with |B_wfa| the weak-field strength and
+//   auto   per pixel: r = g_eff Delta lambda_B(B*) / w, with B* = hypot(max(|BLOS_wfa|, |BLOS_cog|), BTRANS_wfa) and
 //          w the 1/e half-width of the line (from the second moment of the absorption). r < weak_ratio
 //          (default 0.3) -> wfa; otherwise the splitting fit runs and, if the sigma groups are resolved,
 //          split; otherwise cog for BLOS/VLOS with the weak-field transverse field flagged OUT_OF_RANGE.

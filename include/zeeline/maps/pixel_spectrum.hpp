@@ -4,8 +4,10 @@
 // Spectra are non-owning views (pointer + length) so the estimators run straight on a tile's buffer
 // without copies. Q, U, V may be null when the cube lacks them (an I+V cube still gives BLOS).
 // The continuum level Ic is the mean of I over the continuum samples; the noise of each Stokes
-// parameter is the sample standard deviation over the same samples (of Q, U, V about zero after removing
-// their mean, of I about its mean), unless the caller gives a noise level (in units of Ic).
+// parameter comes from second differences of consecutive continuum samples,
+//   sigma^2 = < (f[i-1] - 2 f[i] + f[i+1])^2 > / 6,
+// which is blind to offsets and linear trends such as a damping wing reaching into the continuum window
+// (a standard robust estimator, common practice), unless the caller gives a noise level (units of Ic).
 #pragma once
 
 #include <cstddef>
