@@ -1,0 +1,114 @@
+#!/usr/bin/python3
+"""End-to-end outside check of `zeeline synth` + `zeeline map` with astropy (Debian python3-astropy)
+and fitsverify (Debian fitsverify).
+
+* The map file has the EXTNAMEs and BUNITs of docs/fits.md, and every map's spatial WCS gives the same
+  world coordinates as the cube's (astropy.wcs, celestial sub-WCS of the cube) at several pixels.
+* fitsverify reports 0 errors and 0 warnings on the cube and on the maps.
+* Field values against the TRUE_* maps the synthesiser stored: weak-field pixels' BLOS within 5 sigma + 5 %,
+  resolved strong pixels' FIELD within 10 % (the three-Gaussian splitting fit on a saturated ME line).
+* Contracts: an existing output is not overwritten (exit 3), an I+V cube is refused for transverse maps
+  (exit 1, message names the file and Q and U), a bad method name exits 2.
+Usage: /usr/bin/python3 map_cli_check.py /path/to/zeeline
+"""
+import os
+import subprocess
+import sys
+import tempfile
+
+import numpy as np
+from astropy.io import fits
+from astropy.wcs import WCS
+
+ZEELINE = sys.argv[1]
+SRC = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+CATALOG = os.path.join(SRC, "demo_maps", "lines.csv")
+failures = []
+
+
+def check(cond, what):
+    if not cond:
+        failures.append(what)
+        print("FAIL:", what)
+
+
+def run(args, expect_rc=0):
+    p = subprocess.run([ZEELINE, *args], capture_output=True, text=True)
+    if p.returncode != expect_rc:
+        failures.append(f"{args[:2]}...: exit {p.returncode}, expected {expect_rc}; stderr={p.stderr.strip()[:300]}")
+    return p
+
+
+def fitsverify_clean(path):
+    p = subprocess.run(["fitsverify", "-q", path], capture_output=True, text=True)
+    out = p.stdout + p.stderr
+    return "0 warnings and 0 errors" in out or ("passed" in out.lower() and "warning" not in out.lower()), out.strip()
+
+
+with tempfile.TemporaryDirectory() as tmp:
+    cube = os.path.join(tmp, "cube.fits")
+    maps = os.path.join(tmp, "maps.fits")
+    run(["synth", "--demo", "--nx", "32", "--ny", "24", "--line", "FeI_6302", "--catalog", CATALOG, "--seed", "3",
+         "-o", cube, "-q"])
+    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "auto", "-o", maps, "-q"])
+    for path in (cube, maps):
+        ok, text = fitsverify_clean(path)
+        check(ok, f"fitsverify on {os.path.basename(path)}: {text}")
+
+    with fits.open(cube) as c, fits.open(maps) as m:
+        names = [h.name for h in m]
+        for required in ("FIELD", "INCLINATION", "AZIMUTH", "BLOS", "BTRANS", "VLOS", "BLOS_ERR", "FIELD_ERR",
+                         "METHOD", "QUALITY"):
+            check(required in names, f"map file lacks {required}: {names}")
+        units = {"FIELD": "G", "BLOS": "G", "BTRANS": "G", "BLOS_ERR": "G", "INCLINATION": "deg", "AZIMUTH": "deg",
+                 "VLOS": "km/s"}
+        for name, unit in units.items():
+            if name in names:
+                check(m[name].header.get("BUNIT") == unit, f"{name} BUNIT {m[name].header.get('BUNIT')!r} != {unit!r}")
+        check(m["QUALITY"].data.dtype.kind == "i", "QUALITY is an integer image")
+        # Spatial WCS: compare world coordinates of a few pixels (astropy, celestial part of the cube's WCS).
+        wcube = WCS(c[0].header).celestial
+        pix = np.array([[0, 0], [5, 7], [31, 23], [16.5, 11.25]])
+        world_cube = wcube.pixel_to_world_values(pix[:, 0], pix[:, 1])
+        for name in ("BLOS", "FIELD", "QUALITY"):
+            wmap = WCS(m[name].header)
+            world_map = wmap.pixel_to_world_values(pix[:, 0], pix[:, 1])
+            for a, b in zip(world_cube, world_map):
+                check(np.allclose(a, b, rtol=0, atol=1e-9), f"{name} WCS differs from the cube's: {a} vs {b}")
+        # Physics against the stored truth.
+        meth = m["METHOD"].data
+        blos, blos_err = m["BLOS"].data, m["BLOS_ERR"].data
+        tblos, tfield = c["TRUE_BLOS"].data, c["TRUE_FIELD"].data
+        weak = (meth == 1) & (tfield < 200)
+        check(weak.sum() > 100, f"too few weak-field pixels: {weak.sum()}")
+        resid = np.abs(blos[weak] - tblos[weak])
+        ok = resid < 5 * blos_err[weak] + 0.05 * np.abs(tblos[weak]) + 0.5
+        check(ok.mean() > 0.97, f"weak-field BLOS within 5 sigma + 5 %: only {ok.mean():.3f} of pixels")
+        strong = meth == 3
+        if strong.sum():
+            rel = np.abs(m["FIELD"].data[strong] - tfield[strong]) / tfield[strong]
+            check(np.median(rel) < 0.10, f"split FIELD median relative error {np.median(rel):.3f}")
+        print(f"weak pixels {weak.sum()}: median |BLOS - truth| {np.median(resid):.2f} G; split pixels {strong.sum()}")
+
+    # Contracts: no silent overwrite; I+V refusal; bad method.
+    p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "-o", maps, "-q"], expect_rc=3)
+    check("--overwrite" in p.stderr, f"overwrite refusal message: {p.stderr!r}")
+    iv = os.path.join(tmp, "iv.fits")
+    with fits.open(cube) as c:
+        data = c[0].data[[0, 3]]  # numpy order (stokes, wavelength, y, x): keep I and V
+        hdr = c[0].header.copy()
+        hdr["CRVAL4"], hdr["CDELT4"] = 1.0, 3.0
+        fits.PrimaryHDU(data, hdr).writeto(iv)
+    p = run(["map", iv, "--line", "FeI_6302", "--catalog", CATALOG, "--require-transverse", "-o",
+             os.path.join(tmp, "iv_maps.fits"), "-q"], expect_rc=1)
+    check("iv.fits" in p.stderr and "Q and U" in p.stderr, f"I+V refusal message: {p.stderr!r}")
+    run(["map", iv, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "wfa", "-o",
+         os.path.join(tmp, "iv_maps.fits"), "-q"])
+    check(os.path.exists(os.path.join(tmp, "iv_maps.fits")), "I+V cube gives BLOS maps with --method wfa")
+    p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "magic", "-o",
+             os.path.join(tmp, "x.fits")], expect_rc=2)
+    check("magic" in p.stderr, f"bad method message: {p.stderr!r}")
+    check(not os.path.exists(os.path.join(tmp, "x.fits")), "no output after a refused command")
+
+print(f"{len(failures)} failed" if failures else "all map CLI checks passed")
+sys.exit(1 if failures else 0)
