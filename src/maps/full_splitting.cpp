@@ -84,8 +84,8 @@ SplittingResult FullSplittingEstimate(const PixelSpectrum& s, const ContinuumEst
   // ---- grid over (s, w) with linear amplitudes
   Vec7 best;
   double best_chi2 = 1e300;
-  const int n_split = 48;
-  const double widths[] = {0.2, 0.35, 0.5, 0.7, 1.0};
+  const int n_split = 24;
+  const double widths[] = {0.25, 0.45, 0.7};
   for (double wf : widths) {
     const double w = std::max(wf * total_width, step);
     for (int k = 0; k < n_split; ++k) {
@@ -147,7 +147,7 @@ SplittingResult FullSplittingEstimate(const PixelSpectrum& s, const ContinuumEst
         chi2 = c2;
         lambda = std::max(lambda * 0.3, 1e-12);
         improved = true;
-        if (rel < 1e-10) it = o.max_iterations;  // converged
+        if (rel < 1e-9) it = o.max_iterations;  // converged: relative chi2 change below 1e-9
       } else {
         lambda *= 10.0;
       }
