@@ -34,8 +34,117 @@ struct MapArgs {
   double noise = 0.0, weak_ratio = 0.3, resolution_ratio = 1.0, detection_sigma = 3.0;
   int threads = 0, v_sign = 1;
   bool overwrite = false, resume = false, require_transverse = false, quiet = false;
+  // Milne-Eddington and disambiguation options.
+  std::string fix, free, bounds, stokes_weights;
+  std::vector<std::string> extra_lines;
+  int restarts = 3, max_iterations = 60, smooth_azimuth = 0;
+  double bad_chi2 = 5.0, mu = 1.0, disambig_sigma = 3.0;
+  bool disambiguate = false, no_auto_me = false;
   std::string command_line;
 };
+
+std::vector<std::string> SplitList(const std::string& text, char sep) {
+  std::vector<std::string> out;
+  std::string cur;
+  for (char ch : text) {
+    if (ch == sep) {
+      out.push_back(cur);
+      cur.clear();
+    } else if (ch != ' ') {
+      cur += ch;
+    }
+  }
+  if (!cur.empty() || !out.empty()) out.push_back(cur);
+  return out;
+}
+
+// A value of a Milne-Eddington parameter: the field accepts units (G, kG, T, mT), vlos too (km/s, m/s);
+// the others are plain numbers in the units of me_parameters.hpp (doppler_width accepts wavelength units).
+double ParseMeValue(MeParam p, const std::string& text) {
+  if (p == MeParam::kField) return ParseField_gauss(text);
+  if (p == MeParam::kVlos) return ParseVelocity_kms(text);
+  if (p == MeParam::kDopplerWidth) return ParseWavelength_nm(text);
+  std::size_t used = 0;
+  double v = 0.0;
+  try {
+    v = std::stod(text, &used);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  if (used == 0 || used != text.size())
+    throw OptionError(std::string("value '") + text + "' for " + MeParamName(p) + " is not a number");
+  return v;
+}
+
+// --fix fill=1,damping=0.15 ; --free fill,damping ; --bounds field=0:4000,vlos=-10:10 ;
+// --stokes-weights 1,4,4,2 (into o.me).
+void ApplyMeOptions(const MapArgs& a, FieldMapOptions& o) {
+  MeInversionOptions& me = o.me;
+  for (const std::string& item : SplitList(a.fix, ',')) {
+    const auto eq = item.find('=');
+    if (eq == std::string::npos || eq == 0 || eq + 1 == item.size())
+      throw OptionError("--fix '" + item + "': expected NAME=VALUE, e.g. fill=1,damping=0.15");
+    const MeParam p = MeParamFromName(item.substr(0, eq));
+    me.free[static_cast<int>(p)] = false;
+    me.fixed_values.Set(p, ParseMeValue(p, item.substr(eq + 1)));
+  }
+  for (const std::string& item : SplitList(a.free, ',')) {
+    if (item.empty()) throw OptionError("--free '" + a.free + "': empty parameter name");
+    me.free[static_cast<int>(MeParamFromName(item))] = true;
+  }
+  for (const std::string& item : SplitList(a.bounds, ',')) {
+    const auto eq = item.find('='), colon = item.find(':', eq == std::string::npos ? 0 : eq);
+    if (eq == std::string::npos || colon == std::string::npos)
+      throw OptionError("--bounds '" + item + "': expected NAME=LOW:HIGH, e.g. field=0:4000");
+    const MeParam p = MeParamFromName(item.substr(0, eq));
+    me.lower[static_cast<int>(p)] = ParseMeValue(p, item.substr(eq + 1, colon - eq - 1));
+    me.upper[static_cast<int>(p)] = ParseMeValue(p, item.substr(colon + 1));
+  }
+  if (!a.stokes_weights.empty()) {
+    const auto w = SplitList(a.stokes_weights, ',');
+    if (w.size() != 4) throw OptionError("--stokes-weights '" + a.stokes_weights + "': expected four numbers wI,wQ,wU,wV");
+    for (int k = 0; k < 4; ++k) {
+      try {
+        me.stokes_weights[k] = std::stod(w[static_cast<std::size_t>(k)]);
+      } catch (const std::exception&) {
+        throw OptionError("--stokes-weights '" + a.stokes_weights + "': '" + w[static_cast<std::size_t>(k)] +
+                          "' is not a number");
+      }
+    }
+  }
+  me.max_restarts = a.restarts;
+  me.max_iterations = a.max_iterations;
+  me.bad_fit_chi2 = a.bad_chi2;
+  me.model.mu = a.mu;
+  o.auto_me = !a.no_auto_me;
+  o.disambiguate = a.disambiguate;
+  o.disambiguation.smoothing_passes = a.smooth_azimuth;
+  o.disambiguation.min_btrans_sigma = a.disambig_sigma;
+}
+
+// --extra-line NAME[:STRENGTH] (from the same --catalog): a further line in the Milne-Eddington window.
+MeLine ResolveExtraLine(const MapArgs& a, const std::string& spec, WavelengthFrame data_frame) {
+  const auto colon = spec.find(':');
+  LineSelectionArgs l = a.line;
+  l.line = spec.substr(0, colon);
+  l.lower.clear();
+  l.upper.clear();
+  l.wavelength.clear();
+  if (l.catalog.empty()) throw OptionError("--extra-line " + spec + " needs --catalog FILE (and --line for the main line)");
+  const SelectedLine sel = ResolveLine(l);
+  MeLine m;
+  m.wavelength_nm = sel.rest_wavelength_nm;
+  if (sel.frame && *sel.frame != data_frame) m.wavelength_nm = ConvertWavelength_nm(sel.rest_wavelength_nm, *sel.frame, data_frame);
+  m.pattern = sel.pattern;
+  if (colon != std::string::npos) {
+    try {
+      m.relative_strength = std::stod(spec.substr(colon + 1));
+    } catch (const std::exception&) {
+      throw OptionError("--extra-line " + spec + ": strength '" + spec.substr(colon + 1) + "' is not a number");
+    }
+  }
+  return m;
+}
 
 std::string JoinArgs(int argc, char** argv) {
   std::string s;
@@ -48,6 +157,13 @@ void RunMap(const MapArgs& a) {
   if (a.output.empty()) throw OptionError("-o MAPS.fits is required");
   if (fs::exists(a.output) && !a.overwrite)
     throw OutputError(a.output + ": exists; use --overwrite to replace it (nothing was written)");
+  if (!a.png_dir.empty() && !a.overwrite) {
+    // Refuse up front (before any work) if a quicklook this run would write already exists.
+    std::vector<std::string> names{map_names::kMethod, map_names::kQuality};
+    for (int s = 0; s < kSlotCount; ++s) names.push_back(MapSlotName(s));
+    for (const auto& t : QuicklookTargets(a.output, a.png_dir, names))
+      if (fs::exists(t)) throw OutputError(t + ": exists; use --overwrite to replace it (nothing was written)");
+  }
   const SelectedLine line = ResolveLine(a.line);
 
   CubeReadOptions read;
@@ -74,6 +190,8 @@ void RunMap(const MapArgs& a) {
   o.detection_sigma = a.detection_sigma;
   o.need_transverse = a.require_transverse;
   o.threads = a.threads;
+  ApplyMeOptions(a, o);
+  for (const std::string& spec : a.extra_lines) o.extra_lines.push_back(ResolveExtraLine(a, spec, info.frame));
   const std::string bad = o.Validate();
   if (!bad.empty()) throw OptionError(bad);
 
@@ -84,7 +202,9 @@ void RunMap(const MapArgs& a) {
      << o.rest_wavelength_nm << "|" << o.pattern.g_eff << "|" << o.pattern.G << "|" << o.window_halfwidth_nm << "|"
      << o.continuum_exclude_nm << "|" << o.noise_rel << "|" << a.transverse << "|" << o.core_halfwidth_nm << "|"
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
-     << a.v_sign;
+     << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
+     << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me;
+  for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;
   run.fingerprint = fp.str();
   run.resume = a.resume;
@@ -137,7 +257,19 @@ void RunMap(const MapArgs& a) {
   method.keywords.push_back({"METH1", std::string("wfa"), "weak-field approximation"});
   method.keywords.push_back({"METH2", std::string("cog"), "centre of gravity"});
   method.keywords.push_back({"METH3", std::string("split"), "resolved splitting"});
+  method.keywords.push_back({"METH4", std::string("me"), "Milne-Eddington inversion"});
   hdus.push_back(method);
+  if (!maps.disambiguation.empty()) {
+    ImageHdu d = MakeMap("DISAMBIG", maps.nx, maps.ny,
+                         std::vector<double>(maps.disambiguation.begin(), maps.disambiguation.end()));
+    d.type = FitsPixelType::kInt16;
+    d.bunit.clear();
+    d.keywords.push_back({"DISAMB0", std::string("none"), "no azimuth"});
+    d.keywords.push_back({"DISAMB1", std::string("acute"), "acute angle to the potential field"});
+    d.keywords.push_back({"DISAMB2", std::string("weak"), "acute angle, BTRANS below threshold"});
+    d.keywords.push_back({"DISAMB3", std::string("smoothed"), "flipped by the smoothness pass"});
+    hdus.push_back(d);
+  }
   ImageHdu quality = MakeMap(map_names::kQuality, maps.nx, maps.ny,
                              std::vector<double>(maps.quality.begin(), maps.quality.end()));
   quality.type = FitsPixelType::kInt32;
@@ -151,17 +283,32 @@ void RunMap(const MapArgs& a) {
   w.provenance.input = a.cube;
   w.provenance.history.push_back("rest wavelength used " + std::to_string(o.rest_wavelength_nm) + " nm (" +
                                  ToString(info.frame) + ")");
+  for (const MeLine& l : o.extra_lines)
+    w.provenance.history.push_back("extra line " + std::to_string(l.wavelength_nm) + " nm, relative strength " +
+                                   std::to_string(l.relative_strength));
+  if (o.disambiguate)
+    w.provenance.history.push_back("AZIMUTH disambiguated (acute angle to the potential field), range [0, 360) deg");
   WriteFieldMaps(a.output, hdus, info.spatial_wcs_header, w);
   if (a.resume) fs::remove(run.checkpoint_path, ec);
+  std::vector<std::string> pngs;
+  if (!a.png_dir.empty()) {
+    QuicklookOptions q;
+    q.overwrite = a.overwrite;
+    pngs = RenderQuicklooks(a.output, a.png_dir, q);
+  }
 
   if (!a.quiet) {
     long flagged = 0;
     for (auto q : maps.quality) flagged += q != 0;
     std::printf("maps: %s (%ld x %ld pixels, %zu HDUs)\n", a.output.c_str(), maps.nx, maps.ny, hdus.size() + 1);
     std::printf("line: %s\n", line.description.c_str());
-    std::printf("method per pixel: wfa %lld, cog %lld, split %lld; pixels with QUALITY flags: %ld\n",
+    std::printf("method per pixel: wfa %lld, cog %lld, split %lld, me %lld; pixels with QUALITY flags: %ld\n",
                 static_cast<long long>(maps.method_counts[1]), static_cast<long long>(maps.method_counts[2]),
-                static_cast<long long>(maps.method_counts[3]), flagged);
+                static_cast<long long>(maps.method_counts[3]), static_cast<long long>(maps.method_counts[4]), flagged);
+    if (maps.method_counts[4] > 0)
+      std::printf("me: %.1f iterations per pixel on average\n",
+                  static_cast<double>(maps.me_iterations) / static_cast<double>(maps.method_counts[4]));
+    if (!pngs.empty()) std::printf("quicklook: %s (and %zu per-map PNGs)\n", pngs.back().c_str(), pngs.size() - 1);
   }
 }
 
@@ -172,15 +319,18 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   a->command_line = JoinArgs(argc, argv);
   auto* cmd = app.add_subcommand("map", "Field maps (BLOS, BTRANS, FIELD, INCLINATION, AZIMUTH, VLOS + errors) from a Stokes cube");
   cmd->footer(
-      "Methods: wfa (weak field), cog (centre of gravity), split (resolved splitting), auto (per pixel,\n"
-      "recorded in the METHOD map; thresholds in docs/methods.md).\n"
+      "Methods: wfa (weak field), cog (centre of gravity), split (resolved splitting), me (Milne-Eddington\n"
+      "inversion, docs/me_inversion.md), auto (per pixel, recorded in the METHOD map; thresholds in docs/methods.md).\n"
+      "ME parameter names: field inclination azimuth vlos doppler_width damping eta0 s0 s1 fill.\n"
       "Examples:\n"
       "  zeeline map cube.fits --lower 5P1 --upper 5D0 --wavelength 630.2494nm --frame air -o maps.fits\n"
-      "  zeeline map cube.fits --line FeI_6302 --catalog demo_maps/lines.csv --method wfa --png quicklook/ -o maps.fits");
+      "  zeeline map cube.fits --line FeI_6302 --catalog demo_maps/lines.csv --method wfa --png quicklook/ -o maps.fits\n"
+      "  zeeline map cube.fits --line FeI_6302 --catalog demo_maps/lines.csv --method me --fix damping=0.15 \\\n"
+      "      --extra-line FeI_6301:3 --disambiguate -o maps.fits");
   cmd->add_option("cube", a->cube, "Stokes cube (FITS; cube.fits[2] or cube.fits[EXTNAME] picks an HDU)")->required();
   cmd->add_option("-o,--output", a->output, "output map file (FITS)")->required();
   AddLineSelectionOptions(cmd, a->line, "default: the frame of the cube's spectral axis");
-  cmd->add_option("--method", a->method, "wfa | cog | split | auto")->capture_default_str();
+  cmd->add_option("--method", a->method, "wfa | cog | split | me | auto")->capture_default_str();
   cmd->add_option("--window", a->window, "half-width of the fit window around the line, e.g. 0.012nm (default: from the mean line profile)");
   cmd->add_option("--continuum-exclude", a->continuum_exclude, "continuum = samples farther than this from the line (default: the window)");
   cmd->add_option("--noise", a->noise, "noise in units of the continuum (default: measured in the continuum)");
@@ -193,6 +343,21 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
   cmd->add_flag("--require-transverse", a->require_transverse, "refuse cubes without Stokes Q and U");
   cmd->add_option("--threads", a->threads, "worker threads (0 = all cores)")->capture_default_str();
+  cmd->add_option("--fix", a->fix, "me: fix parameters, e.g. fill=1,damping=0.15 (fill is fixed at 1 by default)");
+  cmd->add_option("--free", a->free, "me: free parameters, e.g. fill");
+  cmd->add_option("--bounds", a->bounds, "me: bounds, e.g. field=0:4000,vlos=-10:10");
+  cmd->add_option("--stokes-weights", a->stokes_weights, "me: weights of I,Q,U,V in chi2, e.g. 1,4,4,2");
+  cmd->add_option("--extra-line", a->extra_lines,
+                  "me: another line of the --catalog in the window, NAME[:RELATIVE_STRENGTH] (repeatable)");
+  cmd->add_option("--restarts", a->restarts, "me: extra starts when the reduced chi2 stays above 2 (0-4)")->capture_default_str();
+  cmd->add_option("--max-iterations", a->max_iterations, "me: Levenberg-Marquardt steps per start")->capture_default_str();
+  cmd->add_option("--bad-chi2", a->bad_chi2, "me: reduced chi2 above which QUALITY gets BAD_FIT")->capture_default_str();
+  cmd->add_option("--mu", a->mu, "me: cos(heliocentric angle) of the observation")->capture_default_str();
+  cmd->add_flag("--no-auto-me", a->no_auto_me, "auto: use cog instead of me where wfa and split are invalid");
+  cmd->add_flag("--disambiguate", a->disambiguate,
+                "resolve the 180-deg azimuth ambiguity (acute angle to the potential field; AZIMUTH in [0, 360), DISAMBIG map)");
+  cmd->add_option("--smooth-azimuth", a->smooth_azimuth, "disambiguation: neighbour-consistency passes (0-20)")->capture_default_str();
+  cmd->add_option("--disambig-sigma", a->disambig_sigma, "disambiguation: BTRANS/error below which a pixel is flagged weak")->capture_default_str();
   cmd->add_option("--png", a->png_dir, "also write quicklook PNGs into this directory");
   cmd->add_flag("--overwrite", a->overwrite, "replace an existing output file");
   cmd->add_flag("--resume", a->resume, "keep a checkpoint (OUTPUT.checkpoint) and continue an interrupted run from it");

@@ -9,8 +9,11 @@
 
 #include <stdexcept>
 #include <string>
+#include <vector>
 
 #include <CLI/CLI.hpp>
+
+#include "zeeline/io/quicklook.hpp"
 
 namespace zeeline::cli {
 
@@ -26,5 +29,17 @@ void AddProfileCommand(CLI::App& app);
 /// argc/argv are recorded in the output provenance.
 void AddMapCommand(CLI::App& app, int argc, char** argv);
 void AddSynthCommand(CLI::App& app, int argc, char** argv);
+void AddMeasureCommand(CLI::App& app);
+void AddInfoCommand(CLI::App& app);
+void AddViewCommand(CLI::App& app);
+
+/// Quicklook PNG paths for a map file: DIR/<stem>_<extname>.png for each name, then DIR/<stem>_summary.png
+/// (DIR defaults to the map file's directory).
+std::vector<std::string> QuicklookTargets(const std::string& maps_path, const std::string& out_dir,
+                                          const std::vector<std::string>& extnames);
+/// Renders every 2-D image HDU of a map file plus a summary sheet (shared by `view` and `map --png`);
+/// refuses before writing anything when a target exists and options.overwrite is false. Returns the paths.
+std::vector<std::string> RenderQuicklooks(const std::string& maps_path, const std::string& out_dir,
+                                          const zeeline::QuicklookOptions& options);
 
 }  // namespace zeeline::cli

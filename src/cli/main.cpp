@@ -19,6 +19,9 @@ int main(int argc, char** argv) {
   zeeline::cli::AddProfileCommand(app);
   zeeline::cli::AddMapCommand(app, argc, argv);
   zeeline::cli::AddSynthCommand(app, argc, argv);
+  zeeline::cli::AddMeasureCommand(app);
+  zeeline::cli::AddInfoCommand(app);
+  zeeline::cli::AddViewCommand(app);
 
   try {
     app.parse(argc, argv);

@@ -159,6 +159,10 @@ void CubeReader::Impl::Open(const std::string& path) {
 
 void CubeReader::Impl::CheckSize(const std::array<long long, 4>& naxes) {
   int status = 0;
+  // Tile-compressed images live in a binary table and are decompressed tile by tile by cfitsio; their
+  // NAXISn describe the uncompressed image, so the raw size comparison does not apply.
+  if (fits_is_compressed_image(f, &status)) return;
+  status = 0;
   LONGLONG headstart = 0, datastart = 0, dataend = 0;
   if (fits_get_hduaddrll(f, &headstart, &datastart, &dataend, &status))
     Fail("cannot locate the data unit: " + CfitsioMessage(status));

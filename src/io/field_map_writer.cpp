@@ -61,6 +61,7 @@ struct Writer {
   fitsfile* f = nullptr;
   std::string path;
   std::string hdu = "primary HDU";
+  bool longstrn_written = false;  // per HDU
 
   [[noreturn]] void Fail(const std::string& what) const {
     throw FitsError("'" + path + "' " + hdu + ": " + what);
@@ -77,6 +78,10 @@ struct Writer {
     if (const auto* s = std::get_if<std::string>(&hv.value)) {
       const std::string v = AsciiOnly(*s);
       if (v.size() > 68) {
+        if (!longstrn_written) {  // HEASARC long-string convention: announce it with LONGSTRN
+          fits_write_key_longwarn(f, &status);
+          longstrn_written = true;
+        }
         fits_write_key_longstr(f, hv.key.c_str(), v.c_str(), cm, &status);
       } else {
         fits_write_key(f, TSTRING, hv.key.c_str(), const_cast<char*>(v.c_str()), cm, &status);
@@ -136,6 +141,7 @@ struct Writer {
 
   void Image(const ImageHdu& h, const std::string& spatial_wcs) {
     hdu = "HDU '" + h.extname + "'";
+    longstrn_written = false;
     int bitpix = FLOAT_IMG;
     switch (h.type) {
       case FitsPixelType::kFloat32: bitpix = FLOAT_IMG; break;

@@ -6,6 +6,7 @@
 #include <cstring>
 #include <fstream>
 #include <limits>
+#include <memory>
 #include <sstream>
 
 #ifdef _OPENMP
@@ -72,7 +73,10 @@ struct PixelOut {
   float v[kSlotCount];
   std::int16_t method = 0;
   std::int32_t quality = 0;
+  int me_iterations = 0;
 };
+
+float FiniteOrNaN(double x) { return std::isfinite(x) ? static_cast<float>(x) : kNaN; }
 
 // 1/e half-width of the line from the second moment of |Ic - I| in the window.
 double LineHalfWidth(const PixelSpectrum& s, double ic, double centre, double window) {
@@ -110,8 +114,8 @@ void SetVector(PixelOut& out, double blos, double blos_err, double bt, double bt
 
 class PixelProcessor {
  public:
-  PixelProcessor(const FieldMapOptions& o, const SpectralLayout& lay, bool has_qu, bool has_v)
-      : o_(o), lay_(lay), has_qu_(has_qu), has_v_(has_v) {
+  PixelProcessor(const FieldMapOptions& o, const SpectralLayout& lay, bool has_qu, bool has_v, const MeInverter* me)
+      : o_(o), lay_(lay), has_qu_(has_qu), has_v_(has_v), me_(me) {
     wfa_.rest_wavelength_nm = o.rest_wavelength_nm;
     wfa_.g_eff = o.pattern.g_eff;
     wfa_.G = o.pattern.G;
@@ -133,6 +137,7 @@ class PixelProcessor {
     for (float& x : out.v) x = kNaN;
     out.method = 0;
     out.quality = 0;
+    out.me_iterations = 0;
     if (nonfinite) {
       out.quality = kQualityNonFiniteInput;
       return;
@@ -149,14 +154,17 @@ class PixelProcessor {
     MapMethod m = o_.method;
     bool out_of_range = false;
     SplittingResult sp;
-    if (m == MapMethod::kAuto || m == MapMethod::kWeakField) {
+    double ratio = std::nan("");
+    if (m == MapMethod::kAuto || m == MapMethod::kWeakField || m == MapMethod::kMilneEddington) {
       // Strength proxy: the weak-field answer saturates (and can collapse) for strong fields, so the
       // longitudinal part takes the larger of the weak-field and centre-of-gravity values.
       const double los = std::max(w.has_blos ? std::fabs(w.blos_gauss) : 0.0, g.ok ? std::fabs(g.blos_gauss) : 0.0);
       const double b = std::hypot(los, w.has_btrans ? w.btrans_gauss : 0.0);
       const double width = LineHalfWidth(s, c.continuum, o_.rest_wavelength_nm, lay_.window_halfwidth_nm);
-      const double ratio = std::fabs(o_.pattern.g_eff) * lorentz_per_gauss_ * b / width;
-      if (m == MapMethod::kWeakField) {
+      ratio = std::fabs(o_.pattern.g_eff) * lorentz_per_gauss_ * b / width;
+      if (m == MapMethod::kMilneEddington) {
+        // no choice to make
+      } else if (m == MapMethod::kWeakField) {
         out_of_range = !(ratio < o_.weak_ratio);
       } else if (ratio < o_.weak_ratio) {
         m = MapMethod::kWeakField;
@@ -164,6 +172,8 @@ class PixelProcessor {
         sp = FullSplittingEstimate(s, c, split_);
         if (sp.ok && sp.resolved) {
           m = MapMethod::kSplitting;
+        } else if (me_ && o_.auto_me && has_qu_ && has_v_) {
+          m = MapMethod::kMilneEddington;
         } else {
           m = has_v_ ? MapMethod::kCentreOfGravity : MapMethod::kWeakField;
           out_of_range = !has_v_;
@@ -215,6 +225,9 @@ class PixelProcessor {
         }
         break;
       }
+      case MapMethod::kMilneEddington:
+        ProcessMe(s, c, w, g, sp, ratio, out);
+        return;
       default:
         break;
     }
@@ -246,9 +259,56 @@ class PixelProcessor {
   }
 
  private:
+  // Milne-Eddington pixel: hints from the cheaper estimators, then the inversion (me_inversion.hpp).
+  void ProcessMe(const PixelSpectrum& s, const ContinuumEstimate& c, const WeakFieldResult& w,
+                 const CentreOfGravityResult& g, const SplittingResult& sp, double ratio, PixelOut& out) {
+    MeStartHints h;
+    // B_LOS: the weak-field value in its regime, the centre of gravity (valid at any strength) otherwise.
+    const bool weak = std::isfinite(ratio) && ratio < o_.weak_ratio;
+    if (w.has_blos && (weak || !g.ok)) h.blos_gauss = w.blos_gauss;
+    else if (g.ok) h.blos_gauss = g.blos_gauss;
+    if (w.has_btrans) {
+      h.btrans_gauss = w.btrans_gauss;
+      h.azimuth_deg = w.azimuth_deg;
+    }
+    if (g.ok) h.vlos_kms = g.vlos_kms;
+    if (sp.ok && sp.resolved) h.field_gauss = sp.field_gauss;
+    const MeResult r = me_->Invert(s, c, h, me_work_);
+    out.me_iterations = r.iterations;
+    if (!r.ok) {
+      out.quality |= kQualityNotConverged;
+      return;
+    }
+    const MeParameters& p = r.params;
+    const auto& e = r.sigma;
+    out.v[kSlotField] = FiniteOrNaN(p.field_gauss);
+    out.v[kSlotFieldErr] = FiniteOrNaN(e[0]);
+    out.v[kSlotInclination] = FiniteOrNaN(p.inclination_deg);
+    out.v[kSlotInclinationErr] = FiniteOrNaN(e[1]);
+    if (has_qu_) {
+      out.v[kSlotAzimuth] = FiniteOrNaN(p.azimuth_deg);
+      out.v[kSlotAzimuthErr] = FiniteOrNaN(e[2]);
+    }
+    out.v[kSlotBlos] = FiniteOrNaN(r.blos_gauss);
+    out.v[kSlotBlosErr] = FiniteOrNaN(r.blos_err_gauss);
+    out.v[kSlotBtrans] = FiniteOrNaN(r.btrans_gauss);
+    out.v[kSlotBtransErr] = FiniteOrNaN(r.btrans_err_gauss);
+    out.v[kSlotVlos] = FiniteOrNaN(p.vlos_kms);
+    out.v[kSlotVlosErr] = FiniteOrNaN(e[3]);
+    out.v[kSlotChi2] = FiniteOrNaN(r.chi2_reduced);
+    if (!r.converged) out.quality |= kQualityNotConverged;
+    if (r.bad_fit) out.quality |= kQualityBadFit;
+    const double k = o_.detection_sigma;
+    const bool blos_seen = std::isfinite(out.v[kSlotBlos]) && std::fabs(out.v[kSlotBlos]) > k * out.v[kSlotBlosErr];
+    const bool bt_seen = std::isfinite(out.v[kSlotBtrans]) && out.v[kSlotBtrans] > k * out.v[kSlotBtransErr];
+    if (!blos_seen && !bt_seen) out.quality |= kQualityLowSignal;
+  }
+
   const FieldMapOptions& o_;
   const SpectralLayout& lay_;
   bool has_qu_, has_v_;
+  const MeInverter* me_ = nullptr;
+  MeWorkspace me_work_;
   WeakFieldOptions wfa_;
   CentreOfGravityOptions cog_;
   SplittingOptions split_;
@@ -330,9 +390,26 @@ std::string FieldMapOptions::Validate() const {
   else if (!(resolution_ratio > 0.0)) m << "resolution ratio = " << resolution_ratio << " must be > 0";
   else if (!(detection_sigma >= 0.0)) m << "detection sigma = " << detection_sigma << " must be >= 0";
   else if (threads < 0 || threads > 1024) m << "threads = " << threads << " must be in [0, 1024]";
-  else if (method == MapMethod::kMilneEddington) m << "method 'me' is not available in this build";
+  else if (const std::string me_problem = me.Validate(); !me_problem.empty()) m << me_problem;
+  else if (const std::string d_problem = disambiguation.Validate(); !d_problem.empty()) m << d_problem;
   else if ((transverse == TransverseRegion::kWings || transverse == TransverseRegion::kCoreAndWings) && !(wing_start_nm > 0.0))
     m << "transverse region '" << ToString(transverse) << "' needs a wing start > 0 nm";
+  else {
+    for (std::size_t i = 0; i < extra_lines.size(); ++i) {
+      const MeLine& l = extra_lines[i];
+      if (!(l.wavelength_nm > 0.0) || !std::isfinite(l.wavelength_nm)) {
+        m << "extra line " << i + 1 << ": wavelength = " << l.wavelength_nm << " nm must be positive";
+        break;
+      }
+      if (!(l.relative_strength > 0.0) || !std::isfinite(l.relative_strength)) {
+        m << "extra line " << i + 1 << ": relative strength = " << l.relative_strength << " must be > 0";
+        break;
+      }
+    }
+    if (m.str().empty() && disambiguate && method != MapMethod::kMilneEddington && method != MapMethod::kAuto &&
+        method != MapMethod::kWeakField && method != MapMethod::kSplitting)
+      m << "--disambiguate needs an azimuth map: method '" << ToString(method) << "' gives none";
+  }
   return m.str();
 }
 
@@ -376,6 +453,24 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   std::fill(std::begin(maps.method_counts), std::end(maps.method_counts), 0);
   if (run.resume && !run.checkpoint_path.empty()) LoadCheckpoint(run.checkpoint_path, run.fingerprint, maps);
 
+  if (o.disambiguate && !has_qu)
+    throw FitsError(info.path + ": the STOKES axis holds " + present +
+                    "; azimuth disambiguation needs Stokes Q and U (codes 2 and 3)");
+  if (o.method == MapMethod::kMilneEddington && !has_v && !has_qu)
+    throw FitsError(info.path + ": the STOKES axis holds " + present + "; method 'me' needs Stokes V or Q and U");
+  // One inverter shared by all threads (const, thread-safe); each thread has its own workspace.
+  std::unique_ptr<MeInverter> inverter;
+  if (o.method == MapMethod::kMilneEddington || (o.method == MapMethod::kAuto && o.auto_me)) {
+    MeInversionOptions mo = o.me;
+    if (!has_qu) mo.stokes_weights[1] = mo.stokes_weights[2] = 0.0;
+    if (!has_v) mo.stokes_weights[3] = 0.0;
+    std::vector<MeLine> lines(1);
+    lines[0].wavelength_nm = o.rest_wavelength_nm;
+    lines[0].pattern = o.pattern;
+    lines.insert(lines.end(), o.extra_lines.begin(), o.extra_lines.end());
+    inverter = std::make_unique<MeInverter>(lines, mo);
+  }
+
   const std::size_t nw = info.wavelength_nm.size();
   CubeTile tile;
   const long rows_per_tile = reader.rows_per_tile();
@@ -413,11 +508,13 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     reader.ReadRows(y0, rows, tile);
     const long npix = tile.n_pixels();
     std::int64_t counts[5] = {0, 0, 0, 0, 0};
+    std::int64_t me_iterations = 0;
 #pragma omp parallel num_threads(threads)
     {
-      PixelProcessor proc(o, layout, has_qu, has_v);
+      PixelProcessor proc(o, layout, has_qu, has_v, inverter.get());
       PixelOut out;
       std::int64_t local[5] = {0, 0, 0, 0, 0};
+      std::int64_t local_iterations = 0;
 #pragma omp for schedule(dynamic, 16)
       for (long p = 0; p < npix; ++p) {
         PixelSpectrum s;
@@ -433,15 +530,23 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
         maps.method[g] = out.method;
         maps.quality[g] = out.quality;
         if (out.method >= 0 && out.method < 5) ++local[out.method];
+        local_iterations += out.me_iterations;
       }
 #pragma omp critical
-      for (int k = 0; k < 5; ++k) counts[k] += local[k];
+      {
+        for (int k = 0; k < 5; ++k) counts[k] += local[k];
+        me_iterations += local_iterations;
+      }
     }
     for (int k = 0; k < 5; ++k) maps.method_counts[k] += counts[k];
+    maps.me_iterations += me_iterations;
     maps.rows_done = y0 + rows;
     if (!run.checkpoint_path.empty()) SaveCheckpoint(run.checkpoint_path, run.fingerprint, maps);
     if (run.progress) run.progress(maps.rows_done, info.ny);
   }
+  if (o.disambiguate)
+    DisambiguateAzimuth(maps.nx, maps.ny, maps.slots[kSlotBlos], maps.slots[kSlotBtrans], maps.slots[kSlotBtransErr],
+                        maps.slots[kSlotAzimuth], maps.disambiguation, o.disambiguation);
   return RunStatus::kComplete;
 }
 

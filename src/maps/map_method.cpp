@@ -16,10 +16,10 @@ std::string ToString(MapMethod m) {
 }
 
 MapMethod MapMethodFromString(const std::string& text) {
-  // Only methods this build implements are accepted.
-  for (MapMethod m : {MapMethod::kWeakField, MapMethod::kCentreOfGravity, MapMethod::kSplitting, MapMethod::kAuto})
+  for (MapMethod m : {MapMethod::kWeakField, MapMethod::kCentreOfGravity, MapMethod::kSplitting,
+                      MapMethod::kMilneEddington, MapMethod::kAuto})
     if (ToString(m) == text) return m;
-  throw OptionError("method '" + text + "': expected one of wfa, cog, split, auto");
+  throw OptionError("method '" + text + "': expected one of wfa, cog, split, me, auto");
 }
 
 }  // namespace zeeline

@@ -117,8 +117,13 @@ void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelengt
     throw PlotError("plot " + path + ": need at least two wavelengths and one Stokes row per wavelength");
   if (!(o.continuum != 0.0) || !std::isfinite(o.continuum))
     throw PlotError("plot " + path + ": continuum must be finite and non-zero");
+  for (const PlotCurve& curve : o.overlays)
+    if (curve.panel < 0 || curve.panel > 3 || curve.y.size() != wavelength_nm.size())
+      throw PlotError("plot " + path + ": an overlay curve has a bad panel index or length");
+  const int text_column = o.annotation.empty() ? 0 : 400;
+  const int image_width = o.width_px + text_column;
   std::unique_ptr<cairo_surface_t, decltype(&cairo_surface_destroy)> surface(
-      cairo_image_surface_create(CAIRO_FORMAT_RGB24, o.width_px, o.height_px), &cairo_surface_destroy);
+      cairo_image_surface_create(CAIRO_FORMAT_RGB24, image_width, o.height_px), &cairo_surface_destroy);
   std::unique_ptr<cairo_t, decltype(&cairo_destroy)> context(cairo_create(surface.get()), &cairo_destroy);
   cairo_t* cr = context.get();
   cairo_set_source_rgb(cr, 1, 1, 1);
@@ -134,11 +139,19 @@ void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelengt
   const double left = 100, right = 30, top = o.title.empty() ? 30 : 60, bottom = 70, gap = 18;
   const double ph = (o.height_px - top - bottom - 3 * gap) / 4.0;
   const double pw = o.width_px - left - right;
-  const char* labels[4] = {"I", "Q / Ic", "U / Ic", "V / Ic"};
+  const char* labels_norm[4] = {"I", "Q / Ic", "U / Ic", "V / Ic"};
+  const char* labels_raw[4] = {"I", "Q", "U", "V"};
+  const double norm = o.divide_by_continuum ? o.continuum : 1.0;
   for (int c = 0; c < 4; ++c) {
     Eigen::ArrayXd y = stokes.col(c);
-    if (c > 0) y /= o.continuum;
+    if (c > 0) y /= norm;
     double lo = y.minCoeff(), hi = y.maxCoeff();
+    for (const PlotCurve& curve : o.overlays) {
+      if (curve.panel != c) continue;
+      const Eigen::ArrayXd cy = c > 0 ? Eigen::ArrayXd(curve.y / norm) : curve.y;
+      lo = std::min(lo, cy.minCoeff());
+      hi = std::max(hi, cy.maxCoeff());
+    }
     if (c > 0) {  // polarisation panels symmetric about zero
       const double m = std::max(std::fabs(lo), std::fabs(hi));
       lo = -m;
@@ -147,11 +160,53 @@ void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelengt
     double pad = 0.08 * (hi - lo);
     if (!(pad > 0.0)) pad = std::max(1e-3, 0.05 * std::fabs(hi));
     Panel p{left, top + c * (ph + gap), pw, ph, x[0], x[x.size() - 1], lo - pad, hi + pad};
-    DrawPanel(cr, p, x, y, labels[c], c == 3, xlabel);
+    DrawPanel(cr, p, x, y, (o.divide_by_continuum ? labels_norm : labels_raw)[c], c == 3, xlabel);
+    cairo_save(cr);
+    cairo_rectangle(cr, p.x0, p.y0, p.w, p.h);
+    cairo_clip(cr);
+    for (const PlotCurve& curve : o.overlays) {
+      if (curve.panel != c) continue;
+      cairo_set_source_rgb(cr, curve.r, curve.g, curve.b);
+      cairo_set_line_width(cr, 1.3);
+      const double dash = 5.0;
+      cairo_set_dash(cr, &dash, curve.dashed ? 1 : 0, 0.0);
+      for (Eigen::Index i = 0; i < x.size(); ++i) {
+        const double v = c > 0 ? curve.y[i] / norm : curve.y[i];
+        if (i == 0)
+          cairo_move_to(cr, p.X(x[i]), p.Y(v));
+        else
+          cairo_line_to(cr, p.X(x[i]), p.Y(v));
+      }
+      cairo_stroke(cr);
+      cairo_set_dash(cr, nullptr, 0, 0.0);
+    }
+    if (c == 0) {
+      cairo_set_source_rgb(cr, 0.8, 0.1, 0.1);
+      cairo_set_line_width(cr, 1.5);
+      for (double m : o.markers_nm) {
+        const double px = p.X((m - o.centre_nm) * (in_pm ? 1e3 : 1.0));
+        cairo_move_to(cr, px, p.y0);
+        cairo_line_to(cr, px, p.y0 + 14);
+      }
+      cairo_stroke(cr);
+    }
+    cairo_restore(cr);
   }
   if (!o.title.empty()) {
+    cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_font_size(cr, 16.0);
     Text(cr, left + 0.5 * pw, 22, o.title, 0.5, 0.5);
+  }
+  if (!o.annotation.empty()) {
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_select_font_face(cr, "monospace", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
+    cairo_set_font_size(cr, 12.0);
+    double ty = top;
+    for (const std::string& line : o.annotation) {
+      cairo_move_to(cr, o.width_px + 5.0, ty);
+      cairo_show_text(cr, line.c_str());
+      ty += 17.0;
+    }
   }
   cairo_surface_flush(surface.get());
   const cairo_status_t status = cairo_surface_write_to_png(surface.get(), path.c_str());

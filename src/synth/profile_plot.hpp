@@ -6,6 +6,7 @@
 
 #include <stdexcept>
 #include <string>
+#include <vector>
 
 #include <Eigen/Core>
 
@@ -13,12 +14,24 @@
 
 namespace zeeline {
 
+/// An extra curve drawn over one panel (same wavelengths as the data), e.g. a fitted model.
+struct PlotCurve {
+  int panel = 0;              ///< 0 I, 1 Q, 2 U, 3 V
+  Eigen::ArrayXd y;           ///< same units as the panel's data before normalisation
+  double r = 0.8, g = 0.1, b = 0.1;
+  bool dashed = false;
+};
+
 struct StokesPlotOptions {
   int width_px = 900;
   int height_px = 1100;
   std::string title;            ///< drawn above the top panel
   double continuum = 1.0;       ///< Ic used to normalise Q, U, V (must be non-zero)
   double centre_nm = 0.0;       ///< reference wavelength for the axis labels
+  bool divide_by_continuum = true;  ///< false: Q, U, V panels in data units (labels "Q", "U", "V")
+  std::vector<PlotCurve> overlays;  ///< drawn over the data, clipped to the panels
+  std::vector<double> markers_nm;   ///< short vertical ticks on the I panel (e.g. component positions)
+  std::vector<std::string> annotation;  ///< text lines in a column right of the panels (widens the image)
 };
 
 /// Thrown when the PNG cannot be written; the message names the path.

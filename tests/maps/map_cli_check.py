@@ -42,7 +42,8 @@ def run(args, expect_rc=0):
 def fitsverify_clean(path):
     p = subprocess.run(["fitsverify", "-q", path], capture_output=True, text=True)
     out = p.stdout + p.stderr
-    return "0 warnings and 0 errors" in out or ("passed" in out.lower() and "warning" not in out.lower()), out.strip()
+    # fitsverify -q prints "verification OK: FILE" when it finds no warning and no error.
+    return p.returncode == 0 and "verification OK" in out, out.strip()
 
 
 with tempfile.TemporaryDirectory() as tmp:

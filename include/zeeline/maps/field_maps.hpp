@@ -6,10 +6,20 @@
 //   cog    centre of gravity (centre_of_gravity.hpp): BLOS, VLOS
 //   split  resolved splitting (full_splitting.hpp): FIELD, VLOS; BLOS from cog; INCLINATION from both;
 //          AZIMUTH from the linear-polarisation regression of the weak-field fit (angle only)
+//   me     Milne-Eddington inversion (me_inversion.hpp) of I, Q, U, V over the whole spectral axis, started
+//          from the wfa/cog estimates; all maps with errors from the covariance, CHI2 = reduced chi2;
+//          QUALITY NOT_CONVERGED / BAD_FIT from the fit. Extra lines (extra_lines) share B, angles, vlos and
+//          the thermodynamics with the main line.
 //   auto   per pixel: r = g_eff Delta lambda_B(B*) / w, with B* = hypot(max(|BLOS_wfa|, |BLOS_cog|), BTRANS_wfa) and
 //          w the 1/e half-width of the line (from the second moment of the absorption). r < weak_ratio
 //          (default 0.3) -> wfa; otherwise the splitting fit runs and, if the sigma groups are resolved,
-//          split; otherwise cog for BLOS/VLOS with the weak-field transverse field flagged OUT_OF_RANGE.
+//          split; otherwise (splitting comparable to the width, where neither the weak-field expansion nor
+//          the resolved-splitting fit is valid) me when the cube has Q, U and V and auto_me is set (the
+//          default); without Q/U, or with auto_me = false, cog for BLOS/VLOS with the weak-field transverse
+//          field flagged OUT_OF_RANGE.
+// Disambiguation (disambiguate = true, disambiguation.hpp): after all pixels, the AZIMUTH map is turned into
+// [0, 360) by the acute-angle rule against the potential field of BLOS, and FieldMaps::disambiguation holds
+// a flag per pixel (DisambiguationFlag). Without it AZIMUTH is in [0, 180).
 // Every pixel gets a METHOD code (map_method.hpp) and QUALITY bits (io/quality_flags.hpp): a pixel with
 // NaN/Inf input gets NaN maps and NONFINITE_INPUT, and its neighbours are untouched; a pixel whose |BLOS|
 // and BTRANS are both below detection_sigma times their errors gets LOW_SIGNAL; an estimate outside its
@@ -29,7 +39,9 @@
 
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/io/cube_reader.hpp"
+#include "zeeline/maps/disambiguation.hpp"
 #include "zeeline/maps/map_method.hpp"
+#include "zeeline/maps/me_inversion.hpp"
 #include "zeeline/maps/weak_field.hpp"
 
 namespace zeeline {
@@ -69,6 +81,13 @@ struct FieldMapOptions {
   double detection_sigma = 3.0;      ///< LOW_SIGNAL below this many sigma in both BLOS and BTRANS
   bool need_transverse = false;      ///< refuse cubes without Q and U (the caller asked for BTRANS)
   int threads = 0;                   ///< 0 = all available (OpenMP)
+  // Milne-Eddington inversion (method me, and auto in the intermediate regime).
+  MeInversionOptions me;             ///< free/fixed parameters, bounds, Stokes weights, restarts, tolerances
+  std::vector<MeLine> extra_lines;   ///< further lines in the window (relative_strength fixed, see me_inversion.hpp)
+  bool auto_me = true;               ///< auto may choose me where wfa and split are both invalid
+  // Azimuth disambiguation after the run.
+  bool disambiguate = false;
+  DisambiguationOptions disambiguation;
 
   std::string Validate() const;
 };
@@ -81,6 +100,8 @@ struct FieldMaps {
   bool has_transverse = false;            ///< the cube had Q and U
   long rows_done = 0;
   std::int64_t method_counts[5] = {0, 0, 0, 0, 0};  ///< pixels per MapMethod code
+  std::vector<std::int16_t> disambiguation;         ///< DisambiguationFlag per pixel; empty unless disambiguated
+  std::int64_t me_iterations = 0;                   ///< LM trial steps summed over the ME pixels
 };
 
 struct FieldMapRunOptions {

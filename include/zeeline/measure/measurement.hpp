@@ -1,0 +1,84 @@
+// zeeline/measure/measurement.hpp -- everything `zeeline measure` reports about one spectrum: the fitted
+// Zeeman components of I (component_fit.hpp), the model-free Stokes characteristics
+// (stokes_characteristics.hpp) and the field from each estimator of maps/ side by side, each with a
+// verdict on its validity for this spectrum.
+//
+// Line window: when not given, the samples where the (5-sample boxcar smoothed) |Ic - I| exceeds
+// max(2 % of its maximum, 4 sigma_I) fix the line extent e around the rest wavelength (Ic, sigma_I from the
+// outer 10 % of the spectrum); the window half-width is 1.3 e, at least 3 samples and at most 90 % of the
+// half range (the rule of maps/field_maps.cpp, plus the noise floor). The continuum (level and
+// per-Stokes noise) comes from the samples outside the window (maps/pixel_spectrum.hpp).
+// Emission or absorption: the larger of max(I - Ic) and max(Ic - I) in the window, unless forced.
+//
+// Estimates and verdicts (r = |g_eff| Delta lambda_B(B*) / w, with w the observed 1/e half-width of one
+// component from the fit and B* the largest |B| found by any method that measured it significantly):
+//   wfa    weak_field.hpp: BLOS (needs V), BTRANS and azimuth (need Q, U and G != 0); valid when
+//          r < weak_ratio (default 0.3; LL04 sect. 9.6 asks g_eff Delta lambda_B << Delta lambda_D).
+//   cog    centre_of_gravity.hpp: BLOS and VLOS (needs V); valid at any field strength (Rees & Semel
+//          1979), exact for a normal triplet and approximate for anomalous patterns (Uitenbroek 2003).
+//   split  the Zeeman component fit: |B| and VLOS; valid when the sigma groups are resolved.
+//   split_3gauss  full_splitting.hpp (the estimator `zeeline map --method split` uses): |B|, VLOS; valid
+//          when its sigma groups are resolved.
+#pragma once
+
+#include <optional>
+#include <string>
+
+#include "zeeline/atomic/zeeman_pattern.hpp"
+#include "zeeline/measure/component_fit.hpp"
+#include "zeeline/measure/spectrum_reader.hpp"
+#include "zeeline/measure/stokes_characteristics.hpp"
+
+namespace zeeline {
+
+enum class LineSense { kAuto, kAbsorption, kEmission };
+/// "auto", "absorption", "emission".
+std::string ToString(LineSense sense);
+
+struct MeasureOptions {
+  double rest_wavelength_nm = 0.0;      ///< required; same frame as the spectrum's wavelengths
+  ZeemanPattern pattern;                ///< g_eff (required, != 0), G (0 = no transverse WFA), components
+  int free_components = 0;              ///< 0 = fit the pattern; N = N free components
+  double instrument_fwhm_nm = 0.0;      ///< Gaussian instrument FWHM
+  std::optional<double> fixed_damping;  ///< unset = fitted
+  LineSense sense = LineSense::kAuto;
+  double window_halfwidth_nm = 0.0;     ///< 0 = from the line (see above)
+  double noise_rel = 0.0;               ///< noise in units of the continuum; 0 = measured
+  double weak_ratio = 0.3;              ///< wfa valid below this r
+  double resolution_ratio = 1.0;        ///< sigma separation / component FWHM for "resolved"
+  int realisations = 200;               ///< noise realisations for the characteristics' errors
+  std::uint32_t seed = 20240611;
+
+  std::string Validate() const;
+};
+
+/// One method's answer. NaN members were not measured by this method.
+struct MethodEstimate {
+  std::string method;       ///< "wfa", "cog", "split", "split_3gauss"
+  bool available = false;   ///< the method ran and produced a number
+  bool valid = false;       ///< the method's assumptions hold for this spectrum
+  std::string verdict;      ///< one sentence: why valid / not valid / not available
+  Measured blos_gauss, btrans_gauss, field_gauss, azimuth_deg, vlos_kms;
+};
+
+struct Measurement {
+  double rest_wavelength_nm = 0.0;
+  double g_eff = 0.0, G = 0.0;
+  double window_halfwidth_nm = 0.0;
+  ContinuumEstimate continuum;
+  LineSense sense = LineSense::kAbsorption;  ///< detected (or forced) sense
+  bool sense_detected = true;                ///< false when forced by the options
+  double line_peak_sigma = 0.0;              ///< max |Ic - I| / sigma_I in the window
+  double observed_width_nm = 0.0;            ///< w used in r (1/e half-width of one component)
+  double splitting_ratio = 0.0;              ///< r
+  double field_scale_gauss = 0.0;            ///< B*
+  ComponentFitResult components;
+  StokesCharacteristics characteristics;
+  MethodEstimate wfa, cog, split, split_3gauss;
+};
+
+/// Runs everything on one spectrum. Throws OptionError for invalid options and SpectrumError when the
+/// spectrum cannot be measured at all (naming the file): no samples in the window, no continuum.
+Measurement MeasureSpectrum(const Spectrum1D& spectrum, const MeasureOptions& options);
+
+}  // namespace zeeline

@@ -1,0 +1,276 @@
+#include "zeeline/measure/measurement.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+
+#include "zeeline/core/errors.hpp"
+#include "zeeline/core/units.hpp"
+#include "zeeline/maps/centre_of_gravity.hpp"
+#include "zeeline/maps/full_splitting.hpp"
+#include "zeeline/maps/weak_field.hpp"
+
+namespace zeeline {
+
+std::string ToString(LineSense sense) {
+  switch (sense) {
+    case LineSense::kAuto: return "auto";
+    case LineSense::kAbsorption: return "absorption";
+    case LineSense::kEmission: return "emission";
+  }
+  return "auto";
+}
+
+std::string MeasureOptions::Validate() const {
+  auto num = [](double v) { return std::to_string(v); };
+  if (!(rest_wavelength_nm > 0.0)) return "rest_wavelength_nm = " + num(rest_wavelength_nm) + ": must be > 0";
+  if (!(pattern.g_eff != 0.0) || !std::isfinite(pattern.g_eff))
+    return "g_eff = " + num(pattern.g_eff) + ": must be non-zero (a line with g_eff = 0 does not split)";
+  if (free_components < 0 || free_components > 12)
+    return "free_components = " + std::to_string(free_components) + ": expected 0 to 12";
+  if (free_components == 0 && pattern.components.empty())
+    return "pattern: no Zeeman components (give the line's levels, or free components)";
+  if (!(instrument_fwhm_nm >= 0.0)) return "instrument_fwhm_nm = " + num(instrument_fwhm_nm) + ": must be >= 0";
+  if (fixed_damping && !(*fixed_damping >= 0.0 && *fixed_damping <= 20.0))
+    return "fixed_damping = " + num(*fixed_damping) + ": expected 0 to 20";
+  if (!(window_halfwidth_nm >= 0.0)) return "window_halfwidth_nm = " + num(window_halfwidth_nm) + ": must be >= 0";
+  if (!(noise_rel >= 0.0)) return "noise_rel = " + num(noise_rel) + ": must be >= 0";
+  if (!(weak_ratio > 0.0)) return "weak_ratio = " + num(weak_ratio) + ": must be > 0";
+  if (!(resolution_ratio > 0.0)) return "resolution_ratio = " + num(resolution_ratio) + ": must be > 0";
+  if (realisations < 0 || realisations > 100000)
+    return "realisations = " + std::to_string(realisations) + ": expected 0 to 100000";
+  return {};
+}
+
+namespace {
+
+const double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+Measured M(double v, double e) {
+  Measured m;
+  m.value = v;
+  m.err = e;
+  return m;
+}
+
+std::string Fmt(const char* format, double a, double b = 0.0, double c = 0.0) {
+  char buf[256];
+  std::snprintf(buf, sizeof buf, format, a, b, c);
+  return buf;
+}
+
+// Noise of f from second differences of the given samples (maps/pixel_spectrum.hpp formula).
+double SecondDifferenceNoise(const std::vector<double>& f) {
+  if (f.size() < 3) return 0.0;
+  double s = 0.0;
+  for (std::size_t i = 1; i + 1 < f.size(); ++i) s += std::pow(f[i - 1] - 2.0 * f[i] + f[i + 1], 2);
+  return std::sqrt(s / (6.0 * static_cast<double>(f.size() - 2)));
+}
+
+double AutoWindow(const Spectrum1D& s, double l0) {
+  const std::size_t n = s.size();
+  const std::size_t edge = std::max<std::size_t>(2, n / 10);
+  std::vector<double> lo(s.I.begin(), s.I.begin() + static_cast<long>(edge));
+  std::vector<double> hi(s.I.end() - static_cast<long>(edge), s.I.end());
+  double ic = 0.0;
+  for (std::size_t i = 0; i < edge; ++i) ic += lo[i] + hi[i];
+  ic /= static_cast<double>(2 * edge);
+  const double sigma = 0.5 * (SecondDifferenceNoise(lo) + SecondDifferenceNoise(hi));
+  std::vector<double> d(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::size_t a = i >= 2 ? i - 2 : 0, b = std::min(n - 1, i + 2);
+    double m = 0.0;
+    for (std::size_t k = a; k <= b; ++k) m += s.I[k];
+    d[i] = std::fabs(m / static_cast<double>(b - a + 1) - ic);
+  }
+  const double dmax = *std::max_element(d.begin(), d.end());
+  const double threshold = std::max(0.02 * dmax, 4.0 * sigma / std::sqrt(5.0));
+  double extent = 0.0;
+  for (std::size_t i = 0; i < n; ++i)
+    if (d[i] > threshold) extent = std::max(extent, std::fabs(s.wavelength_nm[i] - l0));
+  const double step = (s.wavelength_nm.back() - s.wavelength_nm.front()) / static_cast<double>(n - 1);
+  const double half_range = std::min(l0 - s.wavelength_nm.front(), s.wavelength_nm.back() - l0);
+  return std::min(std::max(1.3 * extent, 3.0 * step), 0.9 * std::max(half_range, 3.0 * step));
+}
+
+}  // namespace
+
+Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
+  const std::string bad = o.Validate();
+  if (!bad.empty()) throw OptionError(bad);
+  const double l0 = o.rest_wavelength_nm;
+  if (s.size() < kMinSpectrumSamples) throw SpectrumError(s.source + ": too few samples");
+  if (l0 <= s.wavelength_nm.front() || l0 >= s.wavelength_nm.back())
+    throw SpectrumError(s.source + ": the rest wavelength " + Fmt("%.6f", l0) + " nm lies outside the spectrum (" +
+                        Fmt("%.6f", s.wavelength_nm.front()) + " to " + Fmt("%.6f", s.wavelength_nm.back()) +
+                        " nm); check --wavelength and --frame");
+  Measurement m;
+  m.rest_wavelength_nm = l0;
+  m.g_eff = o.pattern.g_eff;
+  m.G = o.pattern.G;
+  m.window_halfwidth_nm = o.window_halfwidth_nm > 0.0 ? o.window_halfwidth_nm : AutoWindow(s, l0);
+  const PixelSpectrum view = s.View();
+
+  std::vector<std::size_t> cont = ContinuumSamples(view.wavelength_nm, view.n, l0, m.window_halfwidth_nm);
+  if (cont.size() < 4) {
+    cont.clear();
+    const std::size_t edge = std::max<std::size_t>(2, view.n / 10);
+    for (std::size_t i = 0; i < edge; ++i) {
+      cont.push_back(i);
+      cont.push_back(view.n - 1 - i);
+    }
+    std::sort(cont.begin(), cont.end());
+  }
+  m.continuum = EstimateContinuum(view, cont, o.noise_rel);
+  const double ic = m.continuum.continuum;
+  if (!std::isfinite(ic)) throw SpectrumError(s.source + ": no continuum samples outside the line window");
+  const std::vector<std::size_t> win = SamplesInWindow(view.wavelength_nm, view.n, l0 - m.window_halfwidth_nm,
+                                                       l0 + m.window_halfwidth_nm);
+  if (win.size() < 5)
+    throw SpectrumError(s.source + ": only " + std::to_string(win.size()) + " samples within " +
+                        Fmt("%.6f", m.window_halfwidth_nm) + " nm of the line; expected at least 5");
+  double up = 0.0, down = 0.0;
+  for (std::size_t i : win) {
+    up = std::max(up, s.I[i] - ic);
+    down = std::max(down, ic - s.I[i]);
+  }
+  m.sense_detected = o.sense == LineSense::kAuto;
+  m.sense = o.sense != LineSense::kAuto ? o.sense : up > down ? LineSense::kEmission : LineSense::kAbsorption;
+  m.line_peak_sigma = m.continuum.noise_I > 0.0 ? std::max(up, down) / m.continuum.noise_I : kNaN;
+
+  // 1. Components.
+  ComponentFitOptions fo;
+  fo.rest_wavelength_nm = l0;
+  fo.pattern = o.pattern;
+  fo.free_components = o.free_components;
+  fo.instrument_fwhm_nm = o.instrument_fwhm_nm;
+  fo.fixed_damping = o.fixed_damping;
+  fo.window_halfwidth_nm = m.window_halfwidth_nm;
+  fo.resolution_ratio = o.resolution_ratio;
+  m.components = FitZeemanComponents(view, m.continuum.noise_I, fo);
+
+  // 2. Characteristics.
+  CharacteristicsOptions co;
+  co.rest_wavelength_nm = l0;
+  co.window_halfwidth_nm = m.window_halfwidth_nm;
+  co.realisations = o.realisations;
+  co.seed = o.seed;
+  m.characteristics = MeasureStokesCharacteristics(view, m.continuum, co);
+
+  // 3. Estimators.
+  WeakFieldOptions wo;
+  wo.rest_wavelength_nm = l0;
+  wo.g_eff = o.pattern.g_eff;
+  wo.G = o.pattern.G;
+  wo.window_halfwidth_nm = m.window_halfwidth_nm;
+  WeakFieldWorkspace work;
+  const WeakFieldResult w = WeakFieldEstimate(view, m.continuum, wo, work);
+  CentreOfGravityOptions cgo;
+  cgo.rest_wavelength_nm = l0;
+  cgo.g_eff = o.pattern.g_eff;
+  cgo.window_halfwidth_nm = m.window_halfwidth_nm;
+  CentreOfGravityResult g;
+  if (s.has_v()) g = CentreOfGravityEstimate(view, m.continuum, cgo);
+  SplittingOptions so;
+  so.rest_wavelength_nm = l0;
+  so.g_eff = o.pattern.g_eff;
+  so.window_halfwidth_nm = m.window_halfwidth_nm;
+  so.resolution_ratio = o.resolution_ratio;
+  const SplittingResult sp = FullSplittingEstimate(view, m.continuum, so);
+  const ComponentFitResult& cf = m.components;
+
+  // Field scale and splitting ratio.
+  double b_star = 0.0;
+  if (w.has_blos || w.has_btrans)
+    b_star = std::hypot(w.has_blos ? w.blos_gauss : 0.0, w.has_btrans ? w.btrans_gauss : 0.0);
+  if (g.ok && std::fabs(g.blos_gauss) > 3.0 * g.blos_err_gauss) b_star = std::max(b_star, std::fabs(g.blos_gauss));
+  if (cf.ok && cf.has_field && cf.field_gauss > 3.0 * cf.field_err_gauss) b_star = std::max(b_star, cf.field_gauss);
+  m.field_scale_gauss = b_star;
+  if (cf.ok) {
+    const double wi = o.instrument_fwhm_nm / (2.0 * std::sqrt(std::log(2.0)));
+    m.observed_width_nm = std::hypot(cf.doppler_width_nm, wi);
+  } else {
+    m.observed_width_nm = sp.ok ? sp.width_nm : kNaN;
+  }
+  m.splitting_ratio = std::fabs(o.pattern.g_eff) * LorentzUnit_nm(l0, b_star) / m.observed_width_nm;
+
+  // wfa
+  m.wfa.method = "wfa";
+  if (!s.has_v() && !s.has_qu()) {
+    m.wfa.verdict = "not available: the spectrum has no V, Q or U";
+  } else if (!w.ok) {
+    m.wfa.verdict = "not available: too few samples or no line signal in the window";
+  } else {
+    m.wfa.available = w.has_blos || w.has_btrans;
+    if (w.has_blos) m.wfa.blos_gauss = M(w.blos_gauss, w.blos_err_gauss);
+    if (w.has_btrans) {
+      m.wfa.btrans_gauss = M(w.btrans_gauss, w.btrans_err_gauss);
+      m.wfa.azimuth_deg = M(w.azimuth_deg, w.azimuth_err_deg);
+    }
+    if (w.has_blos && w.has_btrans) {
+      const double f = std::hypot(w.blos_gauss, w.btrans_gauss);
+      const double fe = f > 0.0 ? std::hypot(w.blos_gauss * w.blos_err_gauss, w.btrans_gauss * w.btrans_err_gauss) / f : kNaN;
+      m.wfa.field_gauss = M(f, fe);
+    }
+    m.wfa.valid = m.wfa.available && m.splitting_ratio < o.weak_ratio;
+    char buf[200];
+    std::snprintf(buf, sizeof buf, "g_eff*dlambda_B/w = %.3g %s %.3g", m.splitting_ratio,
+                  m.wfa.valid ? "<" : ">=", o.weak_ratio);
+    m.wfa.verdict = m.wfa.valid ? std::string("valid: ") + buf
+                                : std::string("outside validity: ") + buf + " (splitting not small against the line width)";
+    if (!w.has_btrans && s.has_qu() && o.pattern.G == 0.0) m.wfa.verdict += "; no BTRANS: G = 0 for this line";
+  }
+
+  // cog
+  m.cog.method = "cog";
+  if (!s.has_v()) {
+    m.cog.verdict = "not available: the spectrum has no V";
+  } else if (!g.ok) {
+    m.cog.verdict = "not available: no net line absorption or emission in the window";
+  } else {
+    m.cog.available = true;
+    m.cog.blos_gauss = M(g.blos_gauss, g.blos_err_gauss);
+    m.cog.vlos_kms = M(g.vlos_kms, g.vlos_err_kms);
+    m.cog.valid = true;
+    bool triplet = true;
+    for (const auto& c : o.pattern.components)
+      if (c.q != 0 && std::fabs(std::fabs(c.shift_lorentz) - std::fabs(o.pattern.g_eff)) > 1e-9) triplet = false;
+    m.cog.verdict = triplet ? "valid: BLOS at any field strength for a (normal or anomalous) triplet"
+                            : "valid: BLOS at any field strength; approximate for this anomalous pattern";
+  }
+
+  // split (component fit)
+  m.split.method = "split";
+  if (!cf.ok) {
+    m.split.verdict = "not available: component fit failed (" + cf.message + ")";
+  } else if (!cf.has_field) {
+    m.split.verdict = "not available: free-component fit with fewer than two components or g_eff = 0";
+  } else {
+    m.split.available = true;
+    m.split.field_gauss = M(cf.field_gauss, cf.field_err_gauss);
+    m.split.vlos_kms = M(cf.vlos_kms, cf.vlos_err_kms);
+    m.split.valid = cf.resolved;
+    char buf[240];
+    std::snprintf(buf, sizeof buf, "sigma separation %.4g +- %.2g nm vs component FWHM %.4g nm (ratio %.3g)",
+                  cf.sigma_separation_nm, cf.sigma_separation_err_nm, cf.component_fwhm_nm,
+                  o.resolution_ratio);
+    m.split.verdict = (cf.resolved ? std::string("valid: resolved, ") : std::string("not resolved: ")) + buf;
+  }
+
+  // split_3gauss
+  m.split_3gauss.method = "split_3gauss";
+  if (!sp.ok) {
+    m.split_3gauss.verdict = "not available: the three-Gaussian fit failed";
+  } else {
+    m.split_3gauss.available = true;
+    m.split_3gauss.field_gauss = M(sp.field_gauss, sp.field_err_gauss);
+    m.split_3gauss.vlos_kms = M(sp.vlos_kms, sp.vlos_err_kms);
+    m.split_3gauss.valid = sp.resolved;
+    m.split_3gauss.verdict =
+        sp.resolved ? "valid: sigma groups resolved (half separation >= resolution ratio x Gaussian 1/e half-width)"
+                    : "not resolved: half separation below resolution ratio x Gaussian 1/e half-width";
+  }
+  return m;
+}
+
+}  // namespace zeeline

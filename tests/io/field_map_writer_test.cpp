@@ -1,0 +1,231 @@
+// Tests of io/field_map_writer: layout read back by cfitsio (ReadImageHdus / CubeReader) and by astropy
+// (tests/io/astropy_compare.py), FITS conformance by fitsverify (HEASARC, Debian package), overwrite
+// refusal and atomic writes.
+#include "zeeline/io/field_map_writer.hpp"
+
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <filesystem>
+#include <limits>
+
+#include "io_test_util.hpp"
+#include "zeeline/core/errors.hpp"
+#include "zeeline/io/cube_reader.hpp"
+#include "zeeline/io/quality_flags.hpp"
+
+namespace zeeline {
+namespace {
+
+using test::CubeSpec;
+using test::TempDir;
+
+// fitsverify -q prints "verification OK" only with 0 warnings and 0 errors (fitsverify usage text).
+void ExpectFitsverifyClean(const std::string& path) {
+  std::string out;
+  const int rc = test::RunCommand("/usr/bin/fitsverify -q " + test::ShellQuote(path), &out);
+  EXPECT_EQ(rc, 0) << out;
+  EXPECT_NE(out.find("verification OK"), std::string::npos) << out;
+  EXPECT_EQ(out.find("warning"), std::string::npos) << out;
+  if (rc != 0) {  // show the full report
+    test::RunCommand("/usr/bin/fitsverify " + test::ShellQuote(path), &out);
+    ADD_FAILURE() << out;
+  }
+}
+
+std::vector<ImageHdu> SampleMaps(long nx, long ny) {
+  std::vector<ImageHdu> maps;
+  auto ramp = [&](double scale, double offset) {
+    std::vector<double> v(static_cast<std::size_t>(nx * ny));
+    for (long i = 0; i < nx * ny; ++i) v[static_cast<std::size_t>(i)] = offset + scale * static_cast<double>(i);
+    return v;
+  };
+  maps.push_back(MakeMap(map_names::kField, nx, ny, ramp(12.5, 100.0)));
+  maps.push_back(MakeMap("FIELD_ERR", nx, ny, ramp(0.5, 3.0)));
+  maps.push_back(MakeMap(map_names::kInclination, nx, ny, ramp(1.0, 10.0)));
+  maps.push_back(MakeMap(map_names::kAzimuth, nx, ny, ramp(2.0, 0.0)));
+  auto blos = ramp(-25.0, 40.0);
+  blos[1] = std::numeric_limits<double>::quiet_NaN();  // undefined pixel survives as NaN
+  maps.push_back(MakeMap(map_names::kBlos, nx, ny, blos));
+  maps.push_back(MakeMap(map_names::kVlos, nx, ny, ramp(0.125, -0.5)));
+  std::vector<double> q(static_cast<std::size_t>(nx * ny), 0.0);
+  q[1] = kQualityNonFiniteInput | kQualityLowSignal;
+  maps.push_back(MakeMap(map_names::kQuality, nx, ny, q));
+  return maps;
+}
+
+FitsWriteOptions SampleOptions() {
+  FitsWriteOptions o;
+  o.provenance.method = "wfa";
+  o.provenance.line = "Fe I 630.2494 nm (air), g_eff = 2.5";
+  o.provenance.input = "/data/scenario/with a rather long directory name/that needs/more than sixty-eight/characters/cube.fits";
+  o.provenance.command_line = "zeeline maps cube.fits --method wfa --line 630.2494nm -o maps.fits --overwrite";
+  o.provenance.history = {"scenario: synthetic bipolar region, test only"};
+  o.provenance.keywords = {{"ZLGEFF", 2.5, "effective Lande factor"}, {"ZLNPIX", 12LL, "pixels"}};
+  return o;
+}
+
+TEST(FieldMapWriter, StandardUnitsFollowTheConventions) {
+  EXPECT_EQ(StandardMapUnit("FIELD"), "G");
+  EXPECT_EQ(StandardMapUnit("BLOS_ERR"), "G");
+  EXPECT_EQ(StandardMapUnit("AZIMUTH"), "deg");
+  EXPECT_EQ(StandardMapUnit("VLOS"), "km/s");
+  EXPECT_EQ(StandardMapUnit("QUALITY"), "");
+}
+
+TEST(FieldMapWriter, RoundTripKeepsNamesUnitsValuesAndSpatialWcs) {
+  TempDir dir;
+  CubeSpec spec;
+  spec.order = {test::kW, test::kB, test::kS, test::kA};  // spatial axes are FITS axes 2 and 4
+  const std::string cube = dir.File("cube.fits");
+  test::WriteCube(cube, spec);
+  const CubeInfo info = ReadCubeInfo(cube);
+  const std::string maps_path = dir.File("maps.fits");
+  const auto maps = SampleMaps(info.nx, info.ny);
+  WriteFieldMaps(maps_path, maps, info.spatial_wcs_header, SampleOptions());
+
+  const auto back = ReadImageHdus(maps_path);
+  ASSERT_EQ(back.size(), maps.size());
+  for (std::size_t i = 0; i < maps.size(); ++i) {
+    EXPECT_EQ(back[i].extname, maps[i].extname);
+    EXPECT_EQ(back[i].bunit, maps[i].bunit);
+    EXPECT_EQ(back[i].naxes, maps[i].naxes);
+    EXPECT_EQ(back[i].wcs_header, info.spatial_wcs_header) << maps[i].extname;
+    for (std::size_t k = 0; k < maps[i].values.size(); ++k) {
+      if (std::isnan(maps[i].values[k])) {
+        EXPECT_TRUE(std::isnan(back[i].values[k]));
+      } else {
+        EXPECT_EQ(back[i].values[k], maps[i].values[k]) << maps[i].extname << " " << k;  // exact in float32
+      }
+    }
+  }
+  EXPECT_EQ(back.back().type, FitsPixelType::kInt32);
+  EXPECT_EQ(static_cast<std::uint32_t>(back.back().values[1]), kQualityNonFiniteInput | kQualityLowSignal);
+  ExpectFitsverifyClean(maps_path);
+}
+
+TEST(FieldMapWriter, StokesCubeRoundTripsThroughTheReaderAndPassesFitsverify) {
+  TempDir dir;
+  const long nx = 4, ny = 3;
+  StokesCubeData data;
+  data.nx = nx;
+  data.ny = ny;
+  data.stokes = {StokesParameter::kI, StokesParameter::kV};
+  std::vector<double> grid;
+  for (int k = 0; k < 6; ++k) grid.push_back(630.10 + 0.002 * k);
+  const long nw = static_cast<long>(grid.size());
+  data.values.resize(static_cast<std::size_t>(nx * ny * 2 * nw));
+  for (std::size_t i = 0; i < data.values.size(); ++i) data.values[i] = static_cast<float>(i) * 0.5f - 3.0f;
+  const std::string wcs = MakeHelioprojectiveWcs(nx, ny, 0.16, 100.0, -200.0);
+  std::vector<ImageHdu> truth = {MakeMap("FIELD", nx, ny, std::vector<double>(nx * ny, 1500.0))};
+  const std::string path = dir.File("synth.fits");
+  WriteStokesCube(path, data, grid, WavelengthFrame::kAir, wcs, truth, SampleOptions());
+  ExpectFitsverifyClean(path);
+
+  CubeReader reader(path);
+  const CubeInfo& info = reader.info();
+  EXPECT_EQ(info.nx, nx);
+  EXPECT_EQ(info.ny, ny);
+  EXPECT_EQ(info.file_frame, WavelengthFrame::kAir);
+  EXPECT_EQ(info.spatial_wcs_header, wcs);
+  ASSERT_EQ(info.n_wavelength(), nw);
+  for (long k = 0; k < nw; ++k) EXPECT_NEAR(info.wavelength_nm[k], grid[k], 1e-12);
+  ASSERT_EQ(info.stokes, data.stokes);
+  CubeTileF tile;
+  reader.ReadRows(0, ny, tile);
+  EXPECT_EQ(tile.data, data.values);  // identical layout [pixel][stokes][wavelength]
+
+  const auto extras = ReadImageHdus(path);
+  ASSERT_EQ(extras.size(), 1u);
+  EXPECT_EQ(extras[0].extname, "FIELD");
+  EXPECT_EQ(extras[0].wcs_header, wcs);
+}
+
+TEST(FieldMapWriter, AstropyReadsTheSameNamesUnitsAndWorldCoordinates) {
+  TempDir dir;
+  CubeSpec spec;
+  spec.order = {test::kS, test::kB, test::kW, test::kA};
+  spec.na = 7;
+  spec.nb = 5;
+  spec.bitpix = -64;
+  const std::string cube = dir.File("cube.fits");
+  test::WriteCube(cube, spec);
+  CubeReader reader(cube);
+  const CubeInfo& info = reader.info();
+  const auto maps = SampleMaps(info.nx, info.ny);
+  const std::string maps_path = dir.File("maps.fits");
+  WriteFieldMaps(maps_path, maps, info.spatial_wcs_header, SampleOptions());
+
+  // Re-write the cube through the Stokes-cube writer.
+  StokesCubeData data;
+  data.nx = info.nx;
+  data.ny = info.ny;
+  data.stokes = info.stokes;
+  CubeTileF tile;
+  reader.ReadRows(0, info.ny, tile);
+  data.values = tile.data;
+  const std::string stokes_path = dir.File("stokes.fits");
+  WriteStokesCube(stokes_path, data, info.wavelength_nm, info.frame, info.spatial_wcs_header,
+                  {MakeMap("BLOS", info.nx, info.ny, std::vector<double>(info.nx * info.ny, 5.0))}, {});
+
+  std::string names;
+  for (const auto& m : maps) names += (names.empty() ? "" : ",") + m.extname + ":" + m.bunit;
+  std::string out;
+  const int rc = test::RunCommand(std::string(ZEELINE_PYTHON) + " " + ZEELINE_SOURCE_DIR + "/tests/io/astropy_compare.py " +
+                                      test::ShellQuote(cube) + " " + test::ShellQuote(maps_path) + " " +
+                                      test::ShellQuote(stokes_path) + " " + test::ShellQuote(names),
+                                  &out);
+  EXPECT_EQ(rc, 0) << out;
+}
+
+TEST(FieldMapWriter, RefusesToOverwriteUnlessAskedAndLeavesNoTemporaryFiles) {
+  TempDir dir;
+  const std::string path = dir.File("maps.fits");
+  const auto maps = SampleMaps(3, 2);
+  WriteFieldMaps(path, maps, "", {});
+  const auto size_before = std::filesystem::file_size(path);
+  try {
+    WriteFieldMaps(path, {MakeMap("FIELD", 1, 1, {1.0})}, "", {});
+    FAIL() << "overwrote silently";
+  } catch (const FitsError& e) {
+    EXPECT_NE(std::string(e.what()).find(path), std::string::npos);
+    EXPECT_NE(std::string(e.what()).find("already exists"), std::string::npos);
+  }
+  EXPECT_EQ(std::filesystem::file_size(path), size_before);
+  FitsWriteOptions o;
+  o.overwrite = true;
+  WriteFieldMaps(path, {MakeMap("FIELD", 1, 1, {1.0})}, "", o);
+  EXPECT_EQ(ReadImageHdus(path).size(), 1u);
+  int files = 0;
+  for (const auto& e : std::filesystem::directory_iterator(dir.path())) {
+    (void)e;
+    ++files;
+  }
+  EXPECT_EQ(files, 1);  // no leftover temporary file
+}
+
+TEST(FieldMapWriter, BadMapsAreRejectedBeforeAnyFileIsCreated) {
+  TempDir dir;
+  const std::string path = dir.File("maps.fits");
+  ImageHdu wrong = MakeMap("FIELD", 3, 3, std::vector<double>(8, 0.0));
+  EXPECT_THROW(WriteFieldMaps(path, {wrong}, "", {}), FitsError);
+  ImageHdu lower = MakeMap("field", 1, 1, {0.0});
+  EXPECT_THROW(WriteFieldMaps(path, {lower}, "", {}), FitsError);
+  EXPECT_THROW(WriteFieldMaps(path, {MakeMap("BLOS", 1, 1, {0.0}), MakeMap("BLOS", 1, 1, {0.0})}, "", {}), FitsError);
+  ImageHdu q = MakeMap("QUALITY", 1, 1, {0.5});  // not an integer: fails while writing
+  EXPECT_THROW(WriteFieldMaps(path, {q}, "", {}), FitsError);
+  EXPECT_FALSE(std::filesystem::exists(path));
+  EXPECT_TRUE(std::filesystem::is_empty(dir.path()));  // the failed write left no temporary file
+  StokesCubeData d;
+  d.nx = d.ny = 1;
+  d.stokes = {StokesParameter::kI, StokesParameter::kQ, StokesParameter::kV};  // not arithmetic
+  d.values.assign(3 * 2, 0.0f);
+  EXPECT_THROW(WriteStokesCube(path, d, {630.0, 630.01}, WavelengthFrame::kAir, "", {}, {}), FitsError);
+  d.stokes = {StokesParameter::kI, StokesParameter::kQ};
+  d.values.assign(2 * 3, 0.0f);
+  EXPECT_THROW(WriteStokesCube(path, d, {630.0, 630.01, 630.03}, WavelengthFrame::kAir, "", {}, {}), FitsError);
+  EXPECT_FALSE(std::filesystem::exists(path));
+}
+
+}  // namespace
+}  // namespace zeeline

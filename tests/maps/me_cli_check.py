@@ -1,0 +1,105 @@
+#!/usr/bin/python3
+"""Outside check of `zeeline map --method me` (run as: /usr/bin/python3 me_cli_check.py <zeeline>).
+
+Synthesises a small demo cube (`zeeline synth --demo`, which writes TRUE_* truth maps of the Milne-Eddington
+parameters it used), maps it with `--method me --disambiguate`, reads both files with astropy (independent
+FITS reader) and compares the maps with the truth using numpy. Tolerances (stated beside each check) are
+judgement calls for noise 1e-3 of the continuum, the demo's default. TRUE_AZIMUTH is in [0, 180), so the
+azimuth is compared modulo 180; the disambiguated map is only checked for its range [0, 360) here (the
+disambiguation itself is tested against a closed-form field in disambiguation_test.cpp).
+"""
+import os
+import subprocess
+import sys
+import tempfile
+
+import numpy as np
+from astropy.io import fits
+
+
+def run(args):
+    r = subprocess.run(args, capture_output=True, text=True)
+    if r.returncode != 0:
+        sys.exit(f"FAIL: {' '.join(args)} exited {r.returncode}\n{r.stdout}\n{r.stderr}")
+    return r.stdout
+
+
+def main():
+    if len(sys.argv) != 2:
+        sys.exit("usage: me_cli_check.py <zeeline binary>")
+    zeeline = sys.argv[1]
+    here = os.path.dirname(os.path.abspath(__file__))
+    catalog = os.path.join(here, "..", "..", "demo_maps", "lines.csv")
+    failures = []
+
+    def check(ok, what):
+        print(("ok   " if ok else "FAIL ") + what)
+        if not ok:
+            failures.append(what)
+
+    with tempfile.TemporaryDirectory() as tmp:
+        cube = os.path.join(tmp, "cube.fits")
+        maps = os.path.join(tmp, "maps.fits")
+        run([zeeline, "synth", "--demo", "--nx", "16", "--ny", "16", "--line", "FeI_6302", "--catalog", catalog,
+             "-o", cube, "--quiet"])
+        out = run([zeeline, "map", cube, "--line", "FeI_6302", "--catalog", catalog, "--method", "me",
+                   "--disambiguate", "--threads", "2", "-o", maps])
+        print(out.strip())
+        with fits.open(cube) as c, fits.open(maps) as m:
+            names = [h.name for h in m]
+            for required in ["FIELD", "FIELD_ERR", "INCLINATION", "INCLINATION_ERR", "AZIMUTH", "AZIMUTH_ERR",
+                             "BLOS", "BLOS_ERR", "BTRANS", "BTRANS_ERR", "VLOS", "VLOS_ERR", "CHI2", "METHOD",
+                             "QUALITY", "DISAMBIG"]:
+                check(required in names, f"HDU {required} present")
+            if failures:
+                sys.exit(1)
+            t_field = c["TRUE_FIELD"].data.astype(float)
+            t_incl = c["TRUE_INCLINATION"].data.astype(float)
+            t_azi = c["TRUE_AZIMUTH"].data.astype(float)
+            t_vlos = c["TRUE_VLOS"].data.astype(float)
+            field = m["FIELD"].data.astype(float)
+            field_err = m["FIELD_ERR"].data.astype(float)
+            incl = m["INCLINATION"].data.astype(float)
+            azi = m["AZIMUTH"].data.astype(float)
+            vlos = m["VLOS"].data.astype(float)
+            chi2 = m["CHI2"].data.astype(float)
+            method = m["METHOD"].data
+            quality = m["QUALITY"].data
+            two_comp = c["TRUE_WEIGHT"].data < 1 if "TRUE_WEIGHT" in [h.name for h in c] else np.zeros_like(t_field, bool)
+
+            check(np.all(method == 4), "METHOD = 4 (me) everywhere")
+            single = ~two_comp
+            # The model matches the data in single-component pixels: median reduced chi2 near 1 (the noise
+            # is measured from the continuum, so within 20 %).
+            med_chi2 = np.nanmedian(chi2[single])
+            check(0.8 < med_chi2 < 1.2, f"median CHI2 {med_chi2:.3f} in (0.8, 1.2)")
+            strong = single & (t_field > 300)
+            weak = single & (t_field <= 300)
+            if strong.any():
+                rel = np.nanmedian(np.abs(field[strong] - t_field[strong]) / t_field[strong])
+                check(rel < 0.02, f"median |dB|/B {rel:.4f} < 2 % where B > 300 G ({strong.sum()} px)")
+                di = np.nanmedian(np.abs(incl[strong] - t_incl[strong]))
+                check(di < 2.0, f"median |d inclination| {di:.3f} deg < 2 deg where B > 300 G")
+                # Azimuth: compare modulo 180 (the truth is reported in [0, 180)).
+                da = np.abs(np.mod(azi[strong] - t_azi[strong] + 90.0, 180.0) - 90.0)
+                check(np.nanmedian(da) < 3.0, f"median |d azimuth| (mod 180) {np.nanmedian(da):.3f} deg < 3 deg")
+                # Reported errors: pull width of B near 1 (0.6-1.6 on this small sample).
+                pull = (field[strong] - t_field[strong]) / field_err[strong]
+                width = 1.4826 * np.nanmedian(np.abs(pull - np.nanmedian(pull)))
+                check(0.6 < width < 1.6, f"robust pull width of FIELD {width:.3f} in (0.6, 1.6)")
+            if weak.any():
+                blos_t = t_field * np.cos(np.radians(t_incl))
+                d = np.nanmedian(np.abs(m["BLOS"].data[weak] - blos_t[weak]))
+                check(d < 10.0, f"median |d BLOS| {d:.2f} G < 10 G where B <= 300 G ({weak.sum()} px)")
+            dv = np.nanmedian(np.abs(vlos[single] - t_vlos[single]))
+            check(dv < 0.05, f"median |d VLOS| {dv:.4f} km/s < 0.05 km/s")
+            check(np.all(np.isfinite(azi) & (azi >= 0) & (azi < 360)), "disambiguated AZIMUTH in [0, 360)")
+            converged = np.mean((quality & 4) == 0)
+            check(converged > 0.95, f"{converged:.3f} of pixels converged (> 95 %)")
+    if failures:
+        sys.exit(f"{len(failures)} check(s) failed")
+    print("all ME CLI checks passed")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,110 @@
+// Tests of measure/measurement: estimates side by side and their validity verdicts.
+#include "zeeline/measure/measurement.hpp"
+
+#include <cmath>
+
+#include <gtest/gtest.h>
+
+#include "measure/measure_test_util.hpp"
+#include "zeeline/core/errors.hpp"
+
+namespace zeeline {
+namespace {
+
+constexpr double kRest = 630.2494;
+constexpr double kSigmas = 3.0;
+// The weak-field BLOS of a saturated ME line is biased by a few per cent even in weak fields (the
+// derivative relation is first order; LL04 sect. 9.6): allowed bias for the 200 G case.
+constexpr double kWfaBiasRel = 0.05;
+
+ZeemanPattern Fe6302() { return ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0")); }
+
+MeasureOptions Options() {
+  MeasureOptions o;
+  o.rest_wavelength_nm = kRest;
+  o.pattern = Fe6302();
+  o.realisations = 50;
+  return o;
+}
+
+TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
+  MeParameters p;
+  p.field_gauss = 200.0;
+  p.inclination_deg = 30.0;
+  p.vlos_kms = 0.5;
+  p.doppler_width_nm = 0.003;
+  p.eta0 = 6.0;
+  const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 5e-4, 4);
+  const Measurement m = MeasureSpectrum(s, Options());
+  EXPECT_EQ(m.sense, LineSense::kAbsorption);
+  const double blos = p.field_gauss * std::cos(p.inclination_deg * M_PI / 180.0);
+  ASSERT_TRUE(m.wfa.available);
+  EXPECT_TRUE(m.wfa.valid) << m.wfa.verdict;
+  EXPECT_NEAR(m.wfa.blos_gauss.value, blos, kSigmas * m.wfa.blos_gauss.err + kWfaBiasRel * blos);
+  ASSERT_TRUE(m.cog.available);
+  EXPECT_TRUE(m.cog.valid);
+  EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err + kWfaBiasRel * blos);
+  EXPECT_NEAR(m.cog.vlos_kms.value, p.vlos_kms, kSigmas * m.cog.vlos_kms.err + 0.02);
+  EXPECT_FALSE(m.split.valid) << m.split.verdict;
+  EXPECT_NE(m.split.verdict.find("not resolved"), std::string::npos);
+  EXPECT_LT(m.splitting_ratio, 0.3);
+}
+
+TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
+  MeParameters p;
+  p.field_gauss = 3000.0;
+  p.inclination_deg = 20.0;
+  p.doppler_width_nm = 0.003;
+  p.eta0 = 3.0;
+  const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 5e-4, 5);
+  const Measurement m = MeasureSpectrum(s, Options());
+  EXPECT_FALSE(m.wfa.valid) << m.wfa.verdict;
+  EXPECT_NE(m.wfa.verdict.find("outside validity"), std::string::npos);
+  EXPECT_TRUE(m.split.valid) << m.split.verdict;
+  // The component fit of a saturated line is not exact (ME profiles are not Voigt sums): 3 % of B.
+  EXPECT_NEAR(m.split.field_gauss.value, p.field_gauss, kSigmas * m.split.field_gauss.err + 0.03 * p.field_gauss);
+  // COG holds at any strength: BLOS = B cos(gamma) (Rees & Semel 1979).
+  const double blos = p.field_gauss * std::cos(p.inclination_deg * M_PI / 180.0);
+  EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err + 0.03 * blos);
+  EXPECT_GT(m.splitting_ratio, 1.0);
+}
+
+TEST(Measurement, LampEmissionIsDetectedAndMeasured) {
+  testing::LampLine t;
+  t.inclination_deg = 45.0;
+  t.noise = 3.0;
+  const ZeemanPattern p = ComputeZeemanPattern(2, 1.0, 4, 1.0);
+  const Spectrum1D s = testing::MakeLampSpectrum(t, p, 0.06, 241);
+  MeasureOptions o;
+  o.rest_wavelength_nm = t.rest_nm;
+  o.pattern = p;
+  o.instrument_fwhm_nm = t.instrument_fwhm_nm;
+  o.realisations = 50;
+  const Measurement m = MeasureSpectrum(s, o);
+  EXPECT_EQ(m.sense, LineSense::kEmission);
+  EXPECT_TRUE(m.split.valid);
+  EXPECT_NEAR(m.split.field_gauss.value, t.field_gauss, kSigmas * m.split.field_gauss.err);
+  // Emission, field toward the observer: V < 0 in the blue wing (docs/conventions.md); COG BLOS = B cos g.
+  EXPECT_LT(m.characteristics.v_blue_amplitude.value, 0.0);
+  const double blos = t.field_gauss * std::cos(t.inclination_deg * M_PI / 180.0);
+  EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err);
+}
+
+TEST(Measurement, RestWavelengthOutsideTheSpectrumIsAnError) {
+  MeParameters p;
+  const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 0.0, 1);
+  MeasureOptions o = Options();
+  o.rest_wavelength_nm = 525.0;
+  try {
+    MeasureSpectrum(s, o);
+    FAIL() << "no error";
+  } catch (const SpectrumError& e) {
+    EXPECT_NE(std::string(e.what()).find("outside the spectrum"), std::string::npos);
+  }
+  o = Options();
+  o.pattern.g_eff = 0.0;
+  EXPECT_THROW(MeasureSpectrum(s, o), OptionError);
+}
+
+}  // namespace
+}  // namespace zeeline
