@@ -319,7 +319,7 @@ void WritePng(const std::string& path, const Spectrum1D& s, const SelectedLine& 
     v.dashed = true;
     p.overlays.push_back(v);
   }
-  std::vector<std::string> text = Wrap(Summary(s, line, m), 58);
+  std::vector<std::string> text = Wrap(Summary(s, line, m), 52);
   text.push_back("");
   text.push_back("red: component model; dashed colours: groups;");
   text.push_back("dashed red on V: weak-field V with BLOS(wfa)");

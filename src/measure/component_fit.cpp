@@ -39,29 +39,31 @@ const double kNaN = std::numeric_limits<double>::quiet_NaN();
 // One line of the model: position = l_c + shift * C * B (pattern) or a free position parameter.
 struct Line {
   double shift_lorentz = 0.0, strength = 1.0;
-  int group = 0;  // pattern: 0 sigma_b, 1 pi, 2 sigma_r; free: component index
+  int group = 0;  // pattern: 0 sigma_b, 1 pi, 2 sigma_r; free: component index (for the parts)
+  int area = 0;   // index of the area parameter: pattern 0 sigma (both groups), 1 pi; free: component
 };
 
 class Model {
  public:
   Model(const std::vector<double>& x, double l0, double lorentz_per_gauss, double wi, bool pattern_mode,
-        std::vector<Line> lines, int groups)
+        std::vector<Line> lines, int groups, int areas)
       : x_(x), l0_(l0), C_(lorentz_per_gauss), wi_(wi), pattern_(pattern_mode), lines_(std::move(lines)),
-        groups_(groups) {}
+        groups_(groups), areas_(areas) {}
 
   // Parameter layout.
-  //   pattern: 0 l_c, 1 B, 2 w, 3 a, 4 + g area of group g (3 groups), 7 c0, 8 c1
+  //   pattern: 0 l_c, 1 B, 2 w, 3 a, 4 sigma area (each sigma group), 5 pi area, 6 c0, 7 c1
   //   free:    0 w, 1 a, 2 c0, 3 c1, 4 + 2k l_k, 5 + 2k E_k
   //   last:    kappa (saturation), both modes
-  int ParamCount() const { return (pattern_ ? 4 + groups_ + 2 : 4 + 2 * groups_) + 1; }
+  int ParamCount() const { return (pattern_ ? 4 + areas_ + 2 : 4 + 2 * areas_) + 1; }
   int Kappa() const { return ParamCount() - 1; }
   int W() const { return pattern_ ? 2 : 0; }
   int A() const { return pattern_ ? 3 : 1; }
-  int C0() const { return pattern_ ? 4 + groups_ : 2; }
+  int C0() const { return pattern_ ? 4 + areas_ : 2; }
   int C1() const { return C0() + 1; }
   int Area(int g) const { return pattern_ ? 4 + g : 5 + 2 * g; }
   int Pos(int g) const { return 4 + 2 * g; }  // free mode only
   int groups() const { return groups_; }
+  int areas() const { return areas_; }
   bool pattern() const { return pattern_; }
   const std::vector<Line>& lines() const { return lines_; }
   double C() const { return C_; }
@@ -69,7 +71,7 @@ class Model {
   double LinePosition(const Eigen::VectorXd& p, const Line& l) const {
     return pattern_ ? p[0] + l.shift_lorentz * C_ * p[1] : p[Pos(l.group)];
   }
-  double LineArea(const Eigen::VectorXd& p, const Line& l) const { return p[Area(l.group)] * l.strength; }
+  double LineArea(const Eigen::VectorXd& p, const Line& l) const { return p[Area(l.area)] * l.strength; }
 
   // Model values and (optionally) the Jacobian d model / d p, and the per-group parts.
   void Evaluate(const Eigen::VectorXd& p, Eigen::VectorXd& y, Eigen::MatrixXd* J,
@@ -107,7 +109,7 @@ class Model {
         const double dP_da = h.dH_da * dap_da * norm;
         (*J)(i, W()) += E * dP_dw;
         (*J)(i, A()) += E * dP_da;
-        (*J)(i, Area(l.group)) += l.strength * P;
+        (*J)(i, Area(l.area)) += l.strength * P;
         if (pattern_) {
           (*J)(i, 0) += E * dP_dpos;
           (*J)(i, 1) += E * dP_dpos * l.shift_lorentz * C_;
@@ -142,7 +144,7 @@ class Model {
   double l0_, C_, wi_;
   bool pattern_;
   std::vector<Line> lines_;
-  int groups_;
+  int groups_, areas_;
 };
 
 // Solve the linear parameters (areas, c0, c1) at fixed nonlinear ones; returns chi2 (unit weights).
@@ -151,7 +153,7 @@ double SolveLinear(const Model& m, Eigen::VectorXd& p, const Eigen::VectorXd& da
   Eigen::MatrixXd J;
   m.Evaluate(p, y, &J);
   std::vector<int> lin = {m.C0(), m.C1()};
-  for (int g = 0; g < m.groups(); ++g) lin.push_back(m.Area(g));
+  for (int g = 0; g < m.areas(); ++g) lin.push_back(m.Area(g));
   Eigen::MatrixXd A(J.rows(), static_cast<Eigen::Index>(lin.size()));
   for (std::size_t k = 0; k < lin.size(); ++k) A.col(static_cast<Eigen::Index>(k)) = J.col(lin[k]);
   const Eigen::VectorXd sol = A.colPivHouseholderQr().solve(data);
@@ -266,14 +268,14 @@ ComponentFitResult FitZeemanComponents(const PixelSpectrum& s, double noise_I, c
   if (r.pattern_mode) {
     groups = 3;
     for (const auto& c : o.pattern.components)
-      if (c.strength > 0.0) lines.push_back({c.shift_lorentz, c.strength, c.q + 1});
+      if (c.strength > 0.0) lines.push_back({c.shift_lorentz, c.strength, c.q + 1, c.q == 0 ? 1 : 0});
   } else {
     groups = o.free_components;
-    for (int k = 0; k < groups; ++k) lines.push_back({0.0, 1.0, k});
+    for (int k = 0; k < groups; ++k) lines.push_back({0.0, 1.0, k, k});
   }
   const double C = LorentzUnit_nm(l0, 1.0);
   const double wi = o.instrument_fwhm_nm / (2.0 * std::sqrt(std::log(2.0)));
-  const Model model(x, l0, C, wi, r.pattern_mode, lines, groups);
+  const Model model(x, l0, C, wi, r.pattern_mode, lines, groups, r.pattern_mode ? 2 : groups);
   const int np = model.ParamCount();
   // Absorption or emission: the larger excursion from the edge level.
   const std::size_t edge0 = std::max<std::size_t>(2, r.count / 10);
@@ -392,10 +394,7 @@ ComponentFitResult FitZeemanComponents(const PixelSpectrum& s, double noise_I, c
     r.message = "the fit diverged";
     return r;
   }
-  if (r.pattern_mode && p[1] < 0.0) {  // B -> -B is the same pattern with sigma_b and sigma_r swapped
-    p[1] = -p[1];
-    std::swap(p[model.Area(0)], p[model.Area(2)]);
-  }
+  if (r.pattern_mode && p[1] < 0.0) p[1] = -p[1];  // a pattern is symmetric: B and -B give the same I
 
   // Covariance of the active parameters, mapped back to the full layout.
   Eigen::VectorXd y;
@@ -464,8 +463,8 @@ ComponentFitResult FitZeemanComponents(const PixelSpectrum& s, double noise_I, c
       grad[0] = 1.0;
       grad[1] = mean_shift[g] * C;
       c.position_err_nm = combo_err(grad);
-      c.area = p[model.Area(g)];
-      c.area_err = err(model.Area(g));
+      c.area = p[model.Area(g == 1 ? 1 : 0)];
+      c.area_err = err(model.Area(g == 1 ? 1 : 0));
       c.fwhm_nm = r.component_fwhm_nm;
       r.components.push_back(c);
     }
@@ -532,6 +531,28 @@ ComponentFitResult FitZeemanComponents(const PixelSpectrum& s, double noise_I, c
   r.vlos_err_kms = c_kms * r.centre_err_nm / l0;
   r.resolved = r.sigma_separation_nm >= o.resolution_ratio * r.component_fwhm_nm &&
                r.sigma_separation_nm > 3.0 * r.sigma_separation_err_nm;
+  if (r.resolved) {
+    // The split must also show in the fitted profile: a local extremum of the line term (in the line's
+    // sense) within half a component FWHM of both the blue and the red sigma centroid.
+    const double half_sep = 0.5 * r.sigma_separation_nm;
+    const double centres[2] = {r.pattern_mode ? r.components.front().position_nm : r.centre_nm - half_sep,
+                               r.pattern_mode ? r.components.back().position_nm : r.centre_nm + half_sep};
+    const int fine_n = 2001;
+    std::vector<double> fine(fine_n);
+    for (int i = 0; i < fine_n; ++i) fine[static_cast<std::size_t>(i)] = x.front() + (x.back() - x.front()) * i / (fine_n - 1);
+    const Model fine_model(fine, l0, C, wi, r.pattern_mode, lines, groups, r.pattern_mode ? 2 : groups);
+    Eigen::VectorXd yf;
+    fine_model.Evaluate(p, yf, nullptr);
+    const double sense = absorption ? -1.0 : 1.0;
+    bool found[2] = {false, false};
+    for (int i = 1; i + 1 < fine_n; ++i) {
+      const double v = sense * yf[i];
+      if (!(v > sense * yf[i - 1] && v >= sense * yf[i + 1])) continue;
+      for (int k = 0; k < 2; ++k)
+        if (std::fabs(fine[static_cast<std::size_t>(i)] - centres[k]) <= 0.5 * r.component_fwhm_nm) found[k] = true;
+    }
+    r.resolved = found[0] && found[1];
+  }
   r.ok = true;
   if (!lm.converged && r.message.empty())
     r.message = "Levenberg-Marquardt stopped after " + std::to_string(lm.iterations) + " iterations without converging";

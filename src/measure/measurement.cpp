@@ -184,7 +184,7 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
   if (w.has_blos || w.has_btrans)
     b_star = std::hypot(w.has_blos ? w.blos_gauss : 0.0, w.has_btrans ? w.btrans_gauss : 0.0);
   if (g.ok && std::fabs(g.blos_gauss) > 3.0 * g.blos_err_gauss) b_star = std::max(b_star, std::fabs(g.blos_gauss));
-  if (cf.ok && cf.has_field && cf.field_gauss > 3.0 * cf.field_err_gauss) b_star = std::max(b_star, cf.field_gauss);
+  if (cf.ok && cf.has_field && cf.resolved) b_star = std::max(b_star, cf.field_gauss);
   m.field_scale_gauss = b_star;
   if (cf.ok) {
     const double wi = o.instrument_fwhm_nm / (2.0 * std::sqrt(std::log(2.0)));

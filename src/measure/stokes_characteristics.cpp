@@ -186,15 +186,16 @@ Values Compute(const Window& w, const double* I, const double* Qp, const double*
       return a;
     };
     out[kAngle] = angle(sq, su);
-    // Line core: within half the FWHM of the depth profile around its maximum.
+    // Line core: within half the FWHM of the strongest peak of the depth profile around the line centroid.
     const std::size_t ipk = static_cast<std::size_t>(std::max_element(depth.begin(), depth.end()) - depth.begin());
     std::size_t a = ipk, b = ipk;
     while (a > 0 && depth[a - 1] > 0.5 * depth[ipk]) --a;
     while (b + 1 < n && depth[b + 1] > 0.5 * depth[ipk]) ++b;
     const double core_half = 0.5 * std::max(x[b] - x[a], 0.0);
+    const double centre = out[kLineCentre];
     double cq = 0.0, cu = 0.0;
     for (std::size_t i = 0; i < n; ++i)
-      if (std::fabs(x[i] - x[ipk]) <= core_half) {
+      if (std::fabs(x[i] - centre) <= core_half) {
         cq += Qp[i];
         cu += Up[i];
       }

@@ -19,7 +19,10 @@
 #include "zeeline/atomic/level.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/core/errors.hpp"
+#include "io/io_test_util.hpp"
 #include "zeeline/core/constants.hpp"
+#include "zeeline/io/quality_flags.hpp"
+#include "zeeline/maps/field_maps.hpp"
 #include "zeeline/synth/stokes_synthesizer.hpp"
 
 namespace zeeline {
@@ -332,6 +335,112 @@ TEST(MeInversion, MissingContinuumOrSpectrumGivesNotOk) {
   EXPECT_FALSE(inv.Invert(px.View(), c, {}, w).ok);
   PixelSpectrum empty;
   EXPECT_FALSE(inv.Invert(empty, KnownNoise(Thermo(), kNoise), {}, w).ok);
+}
+
+// ---- whole cubes through ComputeFieldMaps ------------------------------------------------------------
+// A 4 x 3 cube of ME spectra (fields 150-2700 G), 80 wavelengths of 630.2494 +- 0.04 nm, noise 1e-3.
+constexpr long kCubeNx = 4, kCubeNy = 3;
+constexpr int kCubeNw = 80;
+MeParameters CubeTruth(long x, long y) {
+  return Make(150.0 + 220.0 * x + 700.0 * y, 25.0 + 30.0 * x + 12.0 * y, 20.0 + 37.0 * x + 11.0 * y, 0.2 * x - 0.3 * y);
+}
+
+std::string WriteMeCube(const test::TempDir& dir) {
+  static std::vector<Pixel> pixels;
+  const Eigen::ArrayXd grid = UniformWavelengthGrid(kRest6302, 0.08, kCubeNw);
+  const MilneEddingtonModel model({Line6302()});
+  std::mt19937_64 rng(21);
+  pixels.clear();
+  for (long y = 0; y < kCubeNy; ++y)
+    for (long x = 0; x < kCubeNx; ++x) pixels.push_back(Synth(model, grid, CubeTruth(x, y), kNoise, &rng));
+  test::CubeSpec c;
+  c.na = kCubeNx;
+  c.nb = kCubeNy;
+  c.nw = kCubeNw;
+  c.bitpix = -64;
+  c.spectral_cunit = "nm";
+  c.spectral_crval = grid(0);
+  c.spectral_cdelt = grid(1) - grid(0);
+  c.value = [](long a, long b, long s, long w) {
+    const Pixel& p = pixels[static_cast<std::size_t>(b * kCubeNx + a)];
+    const std::vector<double>* v[4] = {&p.I, &p.Q, &p.U, &p.V};
+    return (*v[s])[static_cast<std::size_t>(w)];
+  };
+  const std::string path = dir.File("me_cube.fits");
+  test::WriteCube(path, c);
+  return path;
+}
+
+FieldMapOptions MeMapOptions(MapMethod m) {
+  FieldMapOptions o;
+  o.method = m;
+  o.rest_wavelength_nm = kRest6302;
+  o.pattern = Line6302().pattern;
+  o.noise_rel = kNoise;  // the known noise: the per-pixel estimate from few continuum samples scatters
+  o.threads = 2;
+  return o;
+}
+
+TEST(MeFieldMaps, MethodMeRecoversTheCubeTruthWithErrorsAndFlags) {
+  test::TempDir dir;
+  CubeReader reader(WriteMeCube(dir));
+  FieldMapOptions o = MeMapOptions(MapMethod::kMilneEddington);
+  o.disambiguate = true;
+  FieldMaps m;
+  ASSERT_EQ(ComputeFieldMaps(reader, o, {}, m), RunStatus::kComplete);
+  EXPECT_EQ(m.method_counts[4], kCubeNx * kCubeNy);
+  ASSERT_EQ(m.disambiguation.size(), static_cast<std::size_t>(kCubeNx * kCubeNy));
+  for (long y = 0; y < kCubeNy; ++y)
+    for (long x = 0; x < kCubeNx; ++x) {
+      const std::size_t i = static_cast<std::size_t>(y * kCubeNx + x);
+      const MeParameters t = CubeTruth(x, y);
+      SCOPED_TRACE(::testing::Message() << "pixel " << x << "," << y);
+      EXPECT_EQ(m.method[i], 4);
+      EXPECT_EQ(m.quality[i] & (kQualityNotConverged | kQualityBadFit), 0);
+      EXPECT_NEAR(m.slots[kSlotField][i], t.field_gauss, kPullSigma * m.slots[kSlotFieldErr][i] + kFieldFloor_gauss);
+      EXPECT_NEAR(m.slots[kSlotInclination][i], t.inclination_deg,
+                  kPullSigma * m.slots[kSlotInclinationErr][i] + kAngleFloor_deg);
+      EXPECT_LT(AzimuthDiff(m.slots[kSlotAzimuth][i], t.azimuth_deg),
+                kPullSigma * m.slots[kSlotAzimuthErr][i] + kAngleFloor_deg);
+      EXPECT_GE(m.slots[kSlotAzimuth][i], 0.0f);  // disambiguated: [0, 360)
+      EXPECT_LT(m.slots[kSlotAzimuth][i], 360.0f);
+      EXPECT_NEAR(m.slots[kSlotVlos][i], t.vlos_kms, kPullSigma * m.slots[kSlotVlosErr][i] + kVlosFloor_kms);
+      EXPECT_GT(m.slots[kSlotChi2][i], 0.6f);  // 320 samples: reduced chi2 sd 0.08
+      EXPECT_LT(m.slots[kSlotChi2][i], 1.4f);
+    }
+}
+
+TEST(MeFieldMaps, AutoUsesMeOnlyBetweenTheWeakAndResolvedRegimes) {
+  test::TempDir dir;
+  CubeReader reader(WriteMeCube(dir));
+  FieldMaps m;
+  ASSERT_EQ(ComputeFieldMaps(reader, MeMapOptions(MapMethod::kAuto), {}, m), RunStatus::kComplete);
+  EXPECT_GT(m.method_counts[4], 0);  // the 600-1400 G pixels: splitting comparable to the width
+  for (std::size_t i = 0; i < m.method.size(); ++i)
+    if (m.method[i] == 4) EXPECT_EQ(m.quality[i] & kQualityOutOfRange, 0);
+  FieldMapOptions no_me = MeMapOptions(MapMethod::kAuto);
+  no_me.auto_me = false;
+  CubeReader again(dir.File("me_cube.fits"));
+  FieldMaps m2;
+  ASSERT_EQ(ComputeFieldMaps(again, no_me, {}, m2), RunStatus::kComplete);
+  EXPECT_EQ(m2.method_counts[4], 0);
+}
+
+TEST(MeFieldMaps, InvalidMeOptionsAreRefusedByFieldMapOptions) {
+  FieldMapOptions o = MeMapOptions(MapMethod::kMilneEddington);
+  EXPECT_EQ(o.Validate(), "");
+  o.me.stokes_weights = {0.0, 0.0, 0.0, 0.0};
+  EXPECT_NE(o.Validate().find("Stokes weights"), std::string::npos);
+  o = MeMapOptions(MapMethod::kMilneEddington);
+  o.extra_lines.push_back(Line6301(0.0));
+  EXPECT_NE(o.Validate().find("relative strength"), std::string::npos);
+  o = MeMapOptions(MapMethod::kCentreOfGravity);
+  o.disambiguate = true;
+  EXPECT_NE(o.Validate().find("disambiguate"), std::string::npos);
+  o = MeMapOptions(MapMethod::kMilneEddington);
+  o.disambiguation.smoothing_passes = -1;
+  EXPECT_NE(o.Validate().find("smoothing"), std::string::npos);
+  EXPECT_EQ(MapMethodFromString("me"), MapMethod::kMilneEddington);
 }
 
 // ---- option errors ---------------------------------------------------------------------------------

@@ -29,7 +29,7 @@ MeasureOptions Options() {
 
 TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
   MeParameters p;
-  p.field_gauss = 200.0;
+  p.field_gauss = 120.0;  // g_eff dlambda_B / Doppler width = 0.19
   p.inclination_deg = 30.0;
   p.vlos_kms = 0.5;
   p.doppler_width_nm = 0.003;
@@ -53,7 +53,7 @@ TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
 TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
   MeParameters p;
   p.field_gauss = 3000.0;
-  p.inclination_deg = 20.0;
+  p.inclination_deg = 0.0;  // COG is exact for a longitudinal field at any strength and saturation
   p.doppler_width_nm = 0.003;
   p.eta0 = 3.0;
   const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 5e-4, 5);
@@ -63,9 +63,10 @@ TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
   EXPECT_TRUE(m.split.valid) << m.split.verdict;
   // The component fit of a saturated line is not exact (ME profiles are not Voigt sums): 3 % of B.
   EXPECT_NEAR(m.split.field_gauss.value, p.field_gauss, kSigmas * m.split.field_gauss.err + 0.03 * p.field_gauss);
-  // COG holds at any strength: BLOS = B cos(gamma) (Rees & Semel 1979).
+  // COG holds at any strength: BLOS = B cos(gamma) (Rees & Semel 1979). (For inclined fields in
+  // saturated lines the pi component leaks into I +- V and biases it; not tested here.)
   const double blos = p.field_gauss * std::cos(p.inclination_deg * M_PI / 180.0);
-  EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err + 0.03 * blos);
+  EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err + 0.01 * blos);
   EXPECT_GT(m.splitting_ratio, 1.0);
 }
 

@@ -18,9 +18,11 @@
 // Pattern mode: the components k are those of the line's Zeeman pattern (atomic/zeeman_pattern.hpp):
 //   l_k = l_c + s_k C B,   E_k = A_q(k) S_k
 // with s_k the shift in Lorentz units (positive = red), S_k the strength (each q group sums to 1), C the
-// Lorentz unit per gauss at the rest wavelength (core/units.hpp) and one free area per group
-// (A_b for q = -1, A_pi, A_r for q = +1). Free parameters: l_c, B, w, a, A_b, A_pi, A_r, c0, c1.
-// A pattern is symmetric (B -> -B swaps sigma_b and sigma_r), so B is reported >= 0.
+// Lorentz unit per gauss at the rest wavelength (core/units.hpp), one area A_sigma shared by the two sigma
+// groups and one area A_pi. In Stokes I the two sigma groups always carry equal weight, (1 + cos^2 g)/4
+// each against sin^2 g / 2 for pi (LL04 sect. 9.8), so tying them removes a degeneracy without losing
+// generality. Free parameters: l_c, B, w, a, A_sigma, A_pi, c0, c1 (+ kappa). The pattern is symmetric
+// (B and -B give the same I), so B is reported >= 0.
 // Free mode (pattern unknown): N components with free l_k and E_k and a shared w and a.
 //
 // Fit: start from a grid over (B, w) (pattern mode) or from the N strongest local extrema of |I - c0|
@@ -36,7 +38,10 @@
 // separation / (2 |g_eff| C).
 // Resolved: the sigma separation is at least `resolution_ratio` times the FWHM of one observed component
 // (Voigt FWHM from Olivero & Longbothum 1977, f_V = 0.5346 f_L + sqrt(0.2166 f_L^2 + f_G^2)) and at least
-// three times its own uncertainty.
+// three times its own uncertainty, and the fitted profile shows it: the line term has a local extremum
+// (a peak for emission, a dip for absorption) within half a component FWHM of both sigma centroids. The
+// last condition keeps a saturated, flat-bottomed single line -- which a split model can imitate -- from
+// being called resolved.
 #pragma once
 
 #include <optional>

@@ -11,7 +11,8 @@
 // Emission or absorption: the larger of max(I - Ic) and max(Ic - I) in the window, unless forced.
 //
 // Estimates and verdicts (r = |g_eff| Delta lambda_B(B*) / w, with w the observed 1/e half-width of one
-// component from the fit and B* the largest |B| found by any method that measured it significantly):
+// component from the fit and B* the largest of the weak-field |B|, a significant (3 sigma) COG |BLOS| and
+// a resolved split field):
 //   wfa    weak_field.hpp: BLOS (needs V), BTRANS and azimuth (need Q, U and G != 0); valid when
 //          r < weak_ratio (default 0.3; LL04 sect. 9.6 asks g_eff Delta lambda_B << Delta lambda_D).
 //   cog    centre_of_gravity.hpp: BLOS and VLOS (needs V); valid at any field strength (Rees & Semel

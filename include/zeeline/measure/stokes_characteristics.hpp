@@ -29,7 +29,9 @@
 //     from +x (docs/conventions.md). For an optically thin line the integrals of Q and U vanish (the pi
 //     and sigma groups carry equal and opposite linear polarisation), so this angle is defined only for
 //     saturated lines; theta_core = (1/2) atan2(U, Q) summed over the line core (|l - l_line| <= half the
-//     line's FWHM), the polarisation angle of the pi group, is given as well.
+//     FWHM of the strongest peak of |Ic - I|, l_line the centroid of |Ic - I|), the polarisation angle of
+//     the pi group for a symmetric pattern, is given as well (perpendicular to the field azimuth in
+//     absorption, parallel to it in emission).
 // Uncertainties: from `realisations` noise realisations: Gaussian noise of the measured per-Stokes sigma
 // is added to the observed spectrum and every quantity recomputed; the error is the standard deviation of
 // the results (a Monte Carlo estimate that follows the nonlinear definitions; fixed seed, reproducible).
