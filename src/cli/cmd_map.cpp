@@ -31,7 +31,8 @@ struct MapArgs {
   std::string cube, output, method = "auto", window, continuum_exclude, transverse = "core", core, wing_start;
   std::string png_dir;
   LineSelectionArgs line;
-  double noise = 0.0, weak_ratio = 0.3, resolution_ratio = 1.0, detection_sigma = 3.0;
+  double noise = 0.0, weak_ratio = FieldMapOptions{}.weak_ratio, resolution_ratio = FieldMapOptions{}.resolution_ratio,
+         detection_sigma = FieldMapOptions{}.detection_sigma;
   int threads = 0, v_sign = 1;
   bool overwrite = false, resume = false, require_transverse = false, quiet = false;
   // Milne-Eddington and disambiguation options.

@@ -169,11 +169,13 @@ class PixelProcessor {
       } else if (ratio < o_.weak_ratio) {
         m = MapMethod::kWeakField;
       } else {
-        sp = FullSplittingEstimate(s, c, split_);
-        if (sp.ok && sp.resolved) {
-          m = MapMethod::kSplitting;
-        } else if (me_ && o_.auto_me && has_qu_ && has_v_) {
+        sp = FullSplittingEstimate(s, c, split_);  // also the inversion's starting |B| when resolved
+        if (me_ && o_.auto_me && has_qu_ && has_v_) {
+          // Full Stokes beyond the weak-field regime: the inversion models intermediate and resolved
+          // splitting alike, and unlike the splitting fit it is not misled by saturated line cores.
           m = MapMethod::kMilneEddington;
+        } else if (sp.ok && sp.resolved) {
+          m = MapMethod::kSplitting;
         } else {
           m = has_v_ ? MapMethod::kCentreOfGravity : MapMethod::kWeakField;
           out_of_range = !has_v_;

@@ -12,11 +12,10 @@
 //          the thermodynamics with the main line.
 //   auto   per pixel: r = g_eff Delta lambda_B(B*) / w, with B* = hypot(max(|BLOS_wfa|, |BLOS_cog|), BTRANS_wfa) and
 //          w the 1/e half-width of the line (from the second moment of the absorption). r < weak_ratio
-//          (default 0.3) -> wfa; otherwise the splitting fit runs and, if the sigma groups are resolved,
-//          split; otherwise (splitting comparable to the width, where neither the weak-field expansion nor
-//          the resolved-splitting fit is valid) me when the cube has Q, U and V and auto_me is set (the
-//          default); without Q/U, or with auto_me = false, cog for BLOS/VLOS with the weak-field transverse
-//          field flagged OUT_OF_RANGE.
+//          (default 0.3) -> wfa; otherwise, when the cube has Q, U and V and auto_me is set (the default),
+//          me (started from the splitting fit's |B| when that is resolved); without them, split if the
+//          sigma groups are resolved, else cog for BLOS/VLOS with the weak-field transverse field flagged
+//          OUT_OF_RANGE.
 // Disambiguation (disambiguate = true, disambiguation.hpp): after all pixels, the AZIMUTH map is turned into
 // [0, 360) by the acute-angle rule against the potential field of BLOS, and FieldMaps::disambiguation holds
 // a flag per pixel (DisambiguationFlag). Without it AZIMUTH is in [0, 180).
@@ -76,7 +75,7 @@ struct FieldMapOptions {
   TransverseRegion transverse = TransverseRegion::kCore;
   double core_halfwidth_nm = 0.0;    ///< weak-field transverse core region (0 = whole window)
   double wing_start_nm = 0.0;        ///< weak-field transverse wing region start
-  double weak_ratio = 0.3;           ///< auto: splitting/width below which the weak-field answer is used
+  double weak_ratio = 0.15;          ///< splitting/width below which the weak-field answer is used (auto) / valid (wfa)
   double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
   double detection_sigma = 3.0;      ///< LOW_SIGNAL below this many sigma in both BLOS and BTRANS
   bool need_transverse = false;      ///< refuse cubes without Q and U (the caller asked for BTRANS)
