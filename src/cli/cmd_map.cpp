@@ -306,7 +306,7 @@ void RunMap(const MapArgs& a) {
     std::printf("method per pixel: wfa %lld, cog %lld, split %lld, me %lld; pixels with QUALITY flags: %ld\n",
                 static_cast<long long>(maps.method_counts[1]), static_cast<long long>(maps.method_counts[2]),
                 static_cast<long long>(maps.method_counts[3]), static_cast<long long>(maps.method_counts[4]), flagged);
-    if (maps.method_counts[4] > 0)
+    if (maps.method_counts[4] > 0 && !a.resume)  // iteration counts are not kept in checkpoints
       std::printf("me: %.1f iterations per pixel on average\n",
                   static_cast<double>(maps.me_iterations) / static_cast<double>(maps.method_counts[4]));
     if (!pngs.empty()) std::printf("quicklook: %s (and %zu per-map PNGs)\n", pngs.back().c_str(), pngs.size() - 1);

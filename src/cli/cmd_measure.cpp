@@ -167,6 +167,7 @@ void WriteJson(std::ostream& out, const Spectrum1D& s, const SelectedLine& line,
   WriteEstimate(j, m.cog);
   WriteEstimate(j, m.split);
   WriteEstimate(j, m.split_3gauss);
+  WriteEstimate(j, m.me);
   j.EndObject();
   j.Key("splitting_ratio").Value(m.splitting_ratio);
   j.Key("field_scale_gauss").Value(m.field_scale_gauss);
@@ -228,7 +229,7 @@ std::vector<std::string> Summary(const Spectrum1D& s, const SelectedLine& line, 
   }
   add("");
   add("field estimates (r = g_eff*dlambda_B/w = " + Num(m.splitting_ratio, "%.3g") + "):");
-  for (const MethodEstimate* e : {&m.wfa, &m.cog, &m.split, &m.split_3gauss}) {
+  for (const MethodEstimate* e : {&m.wfa, &m.cog, &m.split, &m.split_3gauss, &m.me}) {
     std::string row = "  " + e->method + std::string(14 - e->method.size(), ' ');
     if (e->available) {
       if (e->blos_gauss.defined()) row += "BLOS " + PlusMinus(e->blos_gauss, "%.1f") + " G  ";

@@ -8,6 +8,7 @@
 #include "zeeline/core/units.hpp"
 #include "zeeline/maps/centre_of_gravity.hpp"
 #include "zeeline/maps/full_splitting.hpp"
+#include "zeeline/maps/me_inversion.hpp"
 #include "zeeline/maps/weak_field.hpp"
 
 namespace zeeline {
@@ -269,6 +270,49 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
     m.split_3gauss.verdict =
         sp.resolved ? "valid: sigma groups resolved (half separation >= resolution ratio x Gaussian 1/e half-width)"
                     : "not resolved: half separation below resolution ratio x Gaussian 1/e half-width";
+  }
+  // me
+  m.me.method = "me";
+  if (m.sense != LineSense::kAbsorption) {
+    m.me.verdict = "not available: the Milne-Eddington model describes absorption lines";
+  } else if (o.free_components > 0 || o.pattern.components.empty()) {
+    m.me.verdict = "not available: needs the line's Zeeman pattern (levels), not free components";
+  } else if (!(ic > 0.0)) {
+    m.me.verdict = "not available: non-positive continuum";
+  } else {
+    MeLine me_line;
+    me_line.wavelength_nm = l0;
+    me_line.pattern = o.pattern;
+    const MeInverter inverter({me_line}, MeInversionOptions{});
+    MeStartHints hints;
+    if (w.has_blos) hints.blos_gauss = w.blos_gauss;
+    if (g.ok) hints.blos_gauss = g.blos_gauss;
+    if (w.has_btrans) {
+      hints.btrans_gauss = w.btrans_gauss;
+      hints.azimuth_deg = w.azimuth_deg;
+    }
+    if (cf.ok && cf.resolved) hints.field_gauss = cf.field_gauss;
+    if (g.ok) hints.vlos_kms = g.vlos_kms;
+    else if (cf.ok) hints.vlos_kms = cf.vlos_kms;
+    if (std::isfinite(m.observed_width_nm)) hints.line_halfwidth_nm = m.observed_width_nm;
+    MeWorkspace me_work;
+    const MeResult r = inverter.Invert(view, m.continuum, hints, me_work);
+    if (!r.ok) {
+      m.me.verdict = "not available: no usable data for the inversion";
+    } else {
+      auto sig = [&](MeParam q) { return r.sigma[static_cast<int>(q)]; };
+      m.me.available = true;
+      m.me.field_gauss = M(r.params.field_gauss, sig(MeParam::kField));
+      m.me.blos_gauss = M(r.blos_gauss, r.blos_err_gauss);
+      m.me.btrans_gauss = M(r.btrans_gauss, r.btrans_err_gauss);
+      if (s.has_qu()) m.me.azimuth_deg = M(r.params.azimuth_deg, sig(MeParam::kAzimuth));
+      m.me.vlos_kms = M(r.params.vlos_kms, sig(MeParam::kVlos));
+      m.me.valid = r.converged && !r.bad_fit;
+      m.me.verdict = (m.me.valid ? std::string("valid: converged, ") : std::string("not valid: ") +
+                                                                         (r.converged ? "" : "not converged, ")) +
+                     "reduced chi2 " + Fmt("%.3g", r.chi2_reduced) +
+                     (o.instrument_fwhm_nm > 0.0 ? "; note: the ME model has no instrument profile" : "");
+    }
   }
   return m;
 }

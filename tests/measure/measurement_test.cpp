@@ -48,6 +48,10 @@ TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
   EXPECT_FALSE(m.split.valid) << m.split.verdict;
   EXPECT_NE(m.split.verdict.find("not resolved"), std::string::npos);
   EXPECT_LT(m.splitting_ratio, 0.3);
+  // The ME inversion describes this spectrum exactly (same model, no instrument profile).
+  ASSERT_TRUE(m.me.available) << m.me.verdict;
+  EXPECT_TRUE(m.me.valid) << m.me.verdict;
+  EXPECT_NEAR(m.me.blos_gauss.value, blos, kSigmas * m.me.blos_gauss.err);
 }
 
 TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
@@ -68,6 +72,8 @@ TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
   const double blos = p.field_gauss * std::cos(p.inclination_deg * M_PI / 180.0);
   EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err + 0.01 * blos);
   EXPECT_GT(m.splitting_ratio, 1.0);
+  ASSERT_TRUE(m.me.available) << m.me.verdict;
+  EXPECT_NEAR(m.me.field_gauss.value, p.field_gauss, kSigmas * m.me.field_gauss.err);
 }
 
 TEST(Measurement, LampEmissionIsDetectedAndMeasured) {
@@ -89,6 +95,7 @@ TEST(Measurement, LampEmissionIsDetectedAndMeasured) {
   EXPECT_LT(m.characteristics.v_blue_amplitude.value, 0.0);
   const double blos = t.field_gauss * std::cos(t.inclination_deg * M_PI / 180.0);
   EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err);
+  EXPECT_FALSE(m.me.available);  // emission: outside the ME model
 }
 
 TEST(Measurement, RestWavelengthOutsideTheSpectrumIsAnError) {

@@ -20,6 +20,10 @@
 //   split  the Zeeman component fit: |B| and VLOS; valid when the sigma groups are resolved.
 //   split_3gauss  full_splitting.hpp (the estimator `zeeline map --method split` uses): |B|, VLOS; valid
 //          when its sigma groups are resolved.
+//   me     maps/me_inversion.hpp, a Milne-Eddington inversion of all Stokes parameters present, started
+//          from the cheaper estimates: B, inclination, azimuth, BLOS, BTRANS, VLOS; absorption lines with
+//          a known pattern only; valid when it converged with reduced chi2 below the inverter's bad-fit
+//          level. The ME model has no instrument profile: with --instrument-fwhm the verdict says so.
 #pragma once
 
 #include <optional>
@@ -55,7 +59,7 @@ struct MeasureOptions {
 
 /// One method's answer. NaN members were not measured by this method.
 struct MethodEstimate {
-  std::string method;       ///< "wfa", "cog", "split", "split_3gauss"
+  std::string method;       ///< "wfa", "cog", "split", "split_3gauss", "me"
   bool available = false;   ///< the method ran and produced a number
   bool valid = false;       ///< the method's assumptions hold for this spectrum
   std::string verdict;      ///< one sentence: why valid / not valid / not available
@@ -75,7 +79,7 @@ struct Measurement {
   double field_scale_gauss = 0.0;            ///< B*
   ComponentFitResult components;
   StokesCharacteristics characteristics;
-  MethodEstimate wfa, cog, split, split_3gauss;
+  MethodEstimate wfa, cog, split, split_3gauss, me;
 };
 
 /// Runs everything on one spectrum. Throws OptionError for invalid options and SpectrumError when the
