@@ -1,5 +1,7 @@
 #include "zeeline/io/quicklook.hpp"
 
+#include "core/axis_ticks.hpp"
+
 #include <cairo.h>
 
 #include <algorithm>
@@ -142,27 +144,6 @@ const Lut& GetLut(ColourMapKind kind) {
   return kind == ColourMapKind::kDiverging ? diverging : kind == ColourMapKind::kCyclic ? cyclic : sequential;
 }
 
-// "Nice" tick step (1, 2, 5 x 10^k) giving about `target` intervals over span.
-double NiceStep(double span, int target) {
-  if (!(span > 0)) return 1.0;
-  const double raw = span / target;
-  const double mag = std::pow(10.0, std::floor(std::log10(raw)));
-  const double f = raw / mag;
-  return (f < 1.5 ? 1.0 : f < 3.5 ? 2.0 : f < 7.5 ? 5.0 : 10.0) * mag;
-}
-
-std::string TickLabel(double v, double step) {
-  char buf[32];
-  if (std::fabs(v) < step * 1e-6) v = 0.0;
-  const double a = std::max(std::fabs(v), step);
-  if (a >= 1e5 || a < 1e-3) std::snprintf(buf, sizeof buf, "%.2g", v);
-  else {
-    const int decimals = std::max(0, static_cast<int>(-std::floor(std::log10(step) + 1e-9)));
-    std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
-  }
-  return buf;
-}
-
 struct CairoSurface {
   cairo_surface_t* s = nullptr;
   cairo_t* cr = nullptr;
@@ -252,7 +233,7 @@ void DrawPanel(cairo_t* cr, double ox, double oy, const QuicklookMap& m, const P
   // Axis ticks in FITS pixel numbers (pixel centre i + 1).
   auto axis = [&](long n, bool horizontal) {
     const double len = horizontal ? g.map_w : g.map_h;
-    const double step = std::max(1.0, NiceStep(static_cast<double>(n), 5));
+    const double step = std::max(1.0, NiceTickStep(static_cast<double>(n), 5));
     for (double p = step; p <= static_cast<double>(n) + 1e-9; p += step) {
       const double f = (p - 0.5) / static_cast<double>(n) * len;
       if (horizontal) {
@@ -290,7 +271,7 @@ void DrawPanel(cairo_t* cr, double ox, double oy, const QuicklookMap& m, const P
   cairo_rectangle(cr, bx - 0.5, my - 0.5, bw + 1, bh + 1);
   cairo_stroke(cr);
   if (span > 0) {
-    const double step = NiceStep(span, 5);
+    const double step = NiceTickStep(span, 5);
     for (double v = std::ceil(lim[0] / step - 1e-9) * step; v <= lim[1] + step * 1e-9; v += step) {
       const double yv = my + bh - (v - lim[0]) / span * bh;
       cairo_move_to(cr, bx + bw, yv);

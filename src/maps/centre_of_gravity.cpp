@@ -1,7 +1,6 @@
 #include "zeeline/maps/centre_of_gravity.hpp"
 
 #include <cmath>
-#include <sstream>
 
 #include "zeeline/core/constants.hpp"
 #include "zeeline/core/units.hpp"
@@ -9,14 +8,7 @@
 namespace zeeline {
 
 std::string CentreOfGravityOptions::Validate() const {
-  std::ostringstream m;
-  if (!(rest_wavelength_nm > 0.0) || !std::isfinite(rest_wavelength_nm))
-    m << "rest_wavelength_nm = " << rest_wavelength_nm << " must be a positive wavelength";
-  else if (!(std::fabs(g_eff) > 1e-6))
-    m << "g_eff = " << g_eff << ": the line is magnetically insensitive (|g_eff| must exceed 1e-6)";
-  else if (!(window_halfwidth_nm >= 0.0))
-    m << "window_halfwidth_nm = " << window_halfwidth_nm << " must be >= 0";
-  return m.str();
+  return ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
 }
 
 CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,

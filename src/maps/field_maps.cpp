@@ -9,12 +9,9 @@
 #include <memory>
 #include <sstream>
 
-#ifdef _OPENMP
-#include <omp.h>
-#endif
-
 #include "zeeline/core/constants.hpp"
 #include "zeeline/core/errors.hpp"
+#include "zeeline/core/threads.hpp"
 #include "zeeline/core/units.hpp"
 #include "zeeline/io/quality_flags.hpp"
 #include "zeeline/maps/centre_of_gravity.hpp"
@@ -477,12 +474,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   CubeTile tile;
   const long rows_per_tile = reader.rows_per_tile();
   SpectralLayout layout;
-  int threads = o.threads;
-#ifdef _OPENMP
-  if (threads <= 0) threads = omp_get_max_threads();
-#else
-  threads = 1;
-#endif
+  const int threads = ResolveThreadCount(o.threads);
 
   // The spectral layout always comes from the first tile, so a resumed run makes the same choices.
   {

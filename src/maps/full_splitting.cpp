@@ -38,14 +38,10 @@ double ModelAndGradient(const Vec7& p, double l, Vec7* grad) {
 }  // namespace
 
 std::string SplittingOptions::Validate() const {
+  const std::string line = ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
+  if (!line.empty()) return line;
   std::ostringstream m;
-  if (!(rest_wavelength_nm > 0.0) || !std::isfinite(rest_wavelength_nm))
-    m << "rest_wavelength_nm = " << rest_wavelength_nm << " must be a positive wavelength";
-  else if (!(std::fabs(g_eff) > 1e-6))
-    m << "g_eff = " << g_eff << ": the line is magnetically insensitive (|g_eff| must exceed 1e-6)";
-  else if (!(window_halfwidth_nm >= 0.0))
-    m << "window_halfwidth_nm = " << window_halfwidth_nm << " must be >= 0";
-  else if (!(resolution_ratio > 0.0))
+  if (!(resolution_ratio > 0.0))
     m << "resolution_ratio = " << resolution_ratio << " must be > 0";
   else if (max_iterations < 1 || max_iterations > 10000)
     m << "max_iterations = " << max_iterations << " must be in [1, 10000]";

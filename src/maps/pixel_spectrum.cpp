@@ -1,8 +1,20 @@
 #include "zeeline/maps/pixel_spectrum.hpp"
 
 #include <cmath>
+#include <sstream>
 
 namespace zeeline {
+
+std::string ValidateLineOptions(double rest_wavelength_nm, double g_eff, double window_halfwidth_nm) {
+  std::ostringstream m;
+  if (!(rest_wavelength_nm > 0.0) || !std::isfinite(rest_wavelength_nm))
+    m << "rest_wavelength_nm = " << rest_wavelength_nm << " must be a positive wavelength";
+  else if (!(std::fabs(g_eff) > 1e-6) || !std::isfinite(g_eff))
+    m << "g_eff = " << g_eff << ": the line is magnetically insensitive (|g_eff| must exceed 1e-6)";
+  else if (!(window_halfwidth_nm >= 0.0))
+    m << "window_halfwidth_nm = " << window_halfwidth_nm << " must be >= 0";
+  return m.str();
+}
 
 std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_t n, double lo_nm, double hi_nm) {
   std::vector<std::size_t> out;

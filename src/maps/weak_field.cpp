@@ -28,14 +28,10 @@ TransverseRegion TransverseRegionFromString(const std::string& text) {
 }
 
 std::string WeakFieldOptions::Validate() const {
+  const std::string line = ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
+  if (!line.empty()) return line;
   std::ostringstream m;
-  if (!(rest_wavelength_nm > 0.0) || !std::isfinite(rest_wavelength_nm))
-    m << "rest_wavelength_nm = " << rest_wavelength_nm << " must be a positive wavelength";
-  else if (!(std::fabs(g_eff) > 1e-6) || !std::isfinite(g_eff))
-    m << "g_eff = " << g_eff << ": the line is magnetically insensitive (|g_eff| must exceed 1e-6)";
-  else if (!(window_halfwidth_nm >= 0.0))
-    m << "window_halfwidth_nm = " << window_halfwidth_nm << " must be >= 0";
-  else if (!(core_halfwidth_nm >= 0.0))
+  if (!(core_halfwidth_nm >= 0.0))
     m << "core_halfwidth_nm = " << core_halfwidth_nm << " must be >= 0";
   else if ((transverse == TransverseRegion::kWings || transverse == TransverseRegion::kCoreAndWings) &&
            !(wing_start_nm > 0.0))

@@ -1,5 +1,7 @@
 #include "synth/profile_plot.hpp"
 
+#include "core/axis_ticks.hpp"
+
 #include <cairo.h>
 
 #include <algorithm>
@@ -12,23 +14,6 @@
 
 namespace zeeline {
 namespace {
-
-// A "nice" tick step (1, 2 or 5 times a power of ten) giving about `target` intervals over `span`.
-double NiceStep(double span, int target) {
-  if (!(span > 0.0)) return 1.0;
-  const double raw = span / target;
-  const double p = std::pow(10.0, std::floor(std::log10(raw)));
-  const double m = raw / p;
-  return (m < 1.5 ? 1.0 : m < 3.5 ? 2.0 : m < 7.5 ? 5.0 : 10.0) * p;
-}
-
-std::string Format(double v, double step) {
-  const int decimals = std::max(0, static_cast<int>(-std::floor(std::log10(step) + 1e-9)));
-  char buf[64];
-  if (std::fabs(v) < 1e-12 * step) v = 0.0;
-  std::snprintf(buf, sizeof buf, "%.*f", decimals, v);
-  return buf;
-}
 
 struct Panel {
   double x0, y0, w, h;  // pixel box of the data area
@@ -53,7 +38,7 @@ void DrawPanel(cairo_t* cr, const Panel& p, const Eigen::ArrayXd& x, const Eigen
   cairo_stroke(cr);
   cairo_set_font_size(cr, 13.0);
   // x ticks
-  const double xs = NiceStep(p.xmax - p.xmin, 6);
+  const double xs = NiceTickStep(p.xmax - p.xmin, 6);
   for (double t = std::ceil(p.xmin / xs) * xs; t <= p.xmax + 1e-9 * xs; t += xs) {
     const double px = p.X(t);
     cairo_move_to(cr, px, p.y0 + p.h);
@@ -61,10 +46,10 @@ void DrawPanel(cairo_t* cr, const Panel& p, const Eigen::ArrayXd& x, const Eigen
     cairo_move_to(cr, px, p.y0);
     cairo_line_to(cr, px, p.y0 + 6);
     cairo_stroke(cr);
-    if (xlabels) Text(cr, px, p.y0 + p.h + 6, Format(t, xs), 0.5, 0.0);
+    if (xlabels) Text(cr, px, p.y0 + p.h + 6, TickLabel(t, xs), 0.5, 0.0);
   }
   // y ticks
-  const double ys = NiceStep(p.ymax - p.ymin, 4);
+  const double ys = NiceTickStep(p.ymax - p.ymin, 4);
   for (double t = std::ceil(p.ymin / ys) * ys; t <= p.ymax + 1e-9 * ys; t += ys) {
     const double py = p.Y(t);
     cairo_move_to(cr, p.x0, py);
@@ -72,7 +57,7 @@ void DrawPanel(cairo_t* cr, const Panel& p, const Eigen::ArrayXd& x, const Eigen
     cairo_move_to(cr, p.x0 + p.w, py);
     cairo_line_to(cr, p.x0 + p.w - 6, py);
     cairo_stroke(cr);
-    Text(cr, p.x0 - 6, py, Format(t, ys), 1.0, 0.5);
+    Text(cr, p.x0 - 6, py, TickLabel(t, ys), 1.0, 0.5);
   }
   // zero line
   if (p.ymin < 0.0 && p.ymax > 0.0) {

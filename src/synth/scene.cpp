@@ -4,11 +4,8 @@
 #include <random>
 #include <sstream>
 
-#ifdef _OPENMP
-#include <omp.h>
-#endif
-
 #include "zeeline/core/errors.hpp"
+#include "zeeline/core/threads.hpp"
 
 namespace zeeline {
 
@@ -107,12 +104,7 @@ std::vector<float> SynthesizeScene(const Scene& scene, const std::vector<MeLine>
   }
   const Eigen::Index nw = wavelength_nm.size();
   std::vector<float> out(np * 4 * static_cast<std::size_t>(nw));
-  int threads = o.threads;
-#ifdef _OPENMP
-  if (threads <= 0) threads = omp_get_max_threads();
-#else
-  threads = 1;
-#endif
+  const int threads = ResolveThreadCount(o.threads);
 #pragma omp parallel num_threads(threads)
   {
     StokesSynthesizer synth(lines, wavelength_nm, synthesis);

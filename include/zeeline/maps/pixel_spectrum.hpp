@@ -32,6 +32,10 @@ struct ContinuumEstimate {
   std::size_t samples = 0;  ///< continuum samples used
 };
 
+/// The checks every single-line estimator makes on its options: a positive rest wavelength, a magnetically
+/// sensitive line (|g_eff| > 1e-6) and a non-negative window. Empty when valid, else the message.
+std::string ValidateLineOptions(double rest_wavelength_nm, double g_eff, double window_halfwidth_nm);
+
 /// Sample indices whose wavelength lies in [lo_nm, hi_nm] (inclusive).
 std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_t n, double lo_nm, double hi_nm);
 
