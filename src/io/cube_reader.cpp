@@ -16,6 +16,7 @@
 #include "io/fits_util.hpp"
 #include "zeeline/core/constants.hpp"
 #include "zeeline/core/errors.hpp"
+#include "zeeline/core/threads.hpp"
 #include "zeeline/io/air_vacuum.hpp"
 
 namespace zeeline {
@@ -48,6 +49,7 @@ std::string CubeReadOptions::Validate() const {
   if (v_sign != 1 && v_sign != -1) return "v_sign = " + std::to_string(v_sign) + ": expected +1 or -1";
   if (!(max_tile_mib > 0.0 && max_tile_mib <= 1.0e6))
     return "max_tile_mib = " + Num(max_tile_mib) + ": expected 0 < value <= 1e6";
+  if (threads < 0 || threads > 1024) return "threads = " + std::to_string(threads) + ": expected 0 (all) to 1024";
   return "";
 }
 
@@ -88,6 +90,7 @@ struct CubeReader::Impl {
   long next_row = 0;
   std::vector<double> scratch_d;
   std::vector<float> scratch_f;
+  std::vector<long> pixel_offset;  // per tile pixel: offset of its (x, y) in the cfitsio buffer
 
   ~Impl() {
     if (f) {
@@ -400,21 +403,27 @@ void CubeReader::Impl::Read(long y_begin, long y_count, CubeTileT<T>& tile) {
   for (int i = 1; i < 4; ++i) stride[i] = stride[i - 1] * dims[i - 1];
   const std::size_t n = static_cast<std::size_t>(stride[3] * dims[3]);
 
-  std::vector<T>* scratch;
+  // Read float32 (and 8/16-bit integer) data as float: exact, half the memory traffic of doubles; the
+  // reorder below converts to the tile's type.
+  const bool as_float = std::is_same_v<T, float> || info.bitpix == -32 || info.bitpix == 8 || info.bitpix == 16;
+  void* buffer;
   int datatype;
-  if constexpr (std::is_same_v<T, float>) {
-    scratch = &scratch_f;
+  if (as_float) {
+    scratch_f.resize(n);
+    buffer = scratch_f.data();
     datatype = TFLOAT;
   } else {
-    scratch = &scratch_d;
+    scratch_d.resize(n);
+    buffer = scratch_d.data();
     datatype = TDOUBLE;
   }
-  scratch->resize(n);
   // Integer images: BLANK pixels become NaN. Floating images: no null substitution, so NaN and Inf
   // samples arrive unchanged (cfitsio would otherwise map both to the null value).
-  T nulval = info.bitpix > 0 ? std::numeric_limits<T>::quiet_NaN() : T(0);
+  const float nul_f = info.bitpix > 0 ? std::numeric_limits<float>::quiet_NaN() : 0.0f;
+  const double nul_d = info.bitpix > 0 ? std::numeric_limits<double>::quiet_NaN() : 0.0;
+  void* nulval = as_float ? const_cast<float*>(&nul_f) : static_cast<void*>(const_cast<double*>(&nul_d));
   int anynul = 0, status = 0;
-  if (fits_read_subset(f, datatype, blc, trc, inc, &nulval, scratch->data(), &anynul, &status)) {
+  if (fits_read_subset(f, datatype, blc, trc, inc, nulval, buffer, &anynul, &status)) {
     Fail("cannot read rows " + std::to_string(y_begin + 1) + ".." + std::to_string(y_begin + y_count) +
          " of the data unit: " + CfitsioMessage(status));
   }
@@ -431,26 +440,50 @@ void CubeReader::Impl::Read(long y_begin, long y_count, CubeTileT<T>& tile) {
   const int v_index = info.StokesIndex(StokesParameter::kV);
   const T v_sign = static_cast<T>(options.v_sign);
   const bool rev = info.spectral_reversed;
-  const T* src = scratch->data();
   T* dst = tile.data.data();
-  for (long yy = 0; yy < y_count; ++yy) {
-    for (long x = 0; x < nx; ++x) {
-      const long p = yy * nx + x;
-      std::uint32_t bad = 0;
-      const T* base = src + x * sx + yy * sy;
-      for (int s = 0; s < ns; ++s) {
-        const T* sbase = base + s * sk;
-        T* d = dst + (p * ns + s) * nw;
-        const T sign = s == v_index ? v_sign : T(1);
-        for (long k = 0; k < nw; ++k) {
-          const long kf = rev ? nw - 1 - k : k;
-          const T v = sbase[kf * sl] * sign;
-          d[k] = v;
-          if (!std::isfinite(v)) ++bad;
+  // Reorder to pixel-major [pixel][stokes][wavelength] in 8 x 8 blocks of (pixels, wavelengths). Cube
+  // dimensions are often powers of two, so both the per-pixel gather (stride of a whole wavelength plane) and
+  // the per-plane scatter (stride of a whole pixel record) hit the same cache sets over and over; an 8 x 8
+  // block touches 8 source and 8 destination lines, which the caches hold, and is ~3x faster here.
+  const long npix = nx * y_count;
+  pixel_offset.resize(static_cast<std::size_t>(npix));
+  for (long yy = 0, p = 0; yy < y_count; ++yy)
+    for (long x = 0; x < nx; ++x, ++p) pixel_offset[static_cast<std::size_t>(p)] = x * sx + yy * sy;
+  const long* off = pixel_offset.data();
+  const long rec = static_cast<long>(ns) * nw;  // one pixel's record in the tile
+  constexpr long kB = 8, kChunk = 64;  // 8 x 8 micro-blocks inside chunks of 64 pixels per thread
+  const long chunks = (npix + kChunk - 1) / kChunk;
+  auto reorder = [&](const auto* src) {
+#pragma omp parallel for schedule(static) num_threads(ResolveThreadCount(options.threads))
+  for (long c = 0; c < chunks; ++c) {
+    const long c0 = c * kChunk, c1 = std::min(c0 + kChunk, npix);
+    for (int s = 0; s < ns; ++s) {
+      const T sign = s == v_index ? v_sign : T(1);
+      const auto* splane = src + s * sk;
+      for (long k0 = 0; k0 < nw; k0 += kB) {
+        const long k1 = std::min(k0 + kB, nw);
+        for (long p0 = c0; p0 < c1; p0 += kB) {
+          const long p1 = std::min(p0 + kB, c1);
+          for (long k = k0; k < k1; ++k) {
+            const auto* sk_plane = splane + (rev ? nw - 1 - k : k) * sl;
+            T* d = dst + s * nw + k;
+            for (long p = p0; p < p1; ++p) d[p * rec] = static_cast<T>(sk_plane[off[p]]) * sign;
+          }
         }
       }
+    }
+    for (long p = c0; p < c1; ++p) {
+      const T* d = dst + p * rec;
+      std::uint32_t bad = 0;
+      for (long k = 0; k < rec; ++k) bad += !std::isfinite(d[k]);
       tile.nonfinite[static_cast<std::size_t>(p)] = bad;
     }
+  }
+  };
+  if (as_float) {
+    reorder(scratch_f.data());
+  } else {
+    reorder(scratch_d.data());
   }
 }
 

@@ -5,6 +5,7 @@
 #include <cstdio>
 #include <cstring>
 #include <fstream>
+#include <future>
 #include <limits>
 #include <memory>
 #include <sstream>
@@ -493,13 +494,31 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     layout = ChooseLayout(info.wavelength_nm, mean_I, o);
   }
 
+  // Double buffering: the next tile is read (cfitsio + reorder) on a second thread while the estimators
+  // work on the current one. At most one read is in flight, so the reader is never used concurrently.
+  CubeTile next_tile;
+  std::future<void> pending;
+  auto start_read = [&](long y_begin, CubeTile& into) {
+    const long count = std::min(rows_per_tile, info.ny - y_begin);
+    pending = std::async(std::launch::async, [&reader, y_begin, count, &into] { reader.ReadRows(y_begin, count, into); });
+  };
+  if (maps.rows_done < info.ny) start_read(maps.rows_done, next_tile);
   for (long y0 = maps.rows_done; y0 < info.ny; y0 += rows_per_tile) {
+    pending.get();  // rethrows a read error
+    std::swap(tile, next_tile);
     if (run.cancel && run.cancel->load()) {
       if (!run.checkpoint_path.empty()) SaveCheckpoint(run.checkpoint_path, run.fingerprint, maps);
       return RunStatus::kCancelled;
     }
     const long rows = std::min(rows_per_tile, info.ny - y0);
-    reader.ReadRows(y0, rows, tile);
+    if (y0 + rows < info.ny) start_read(y0 + rows, next_tile);
+    // If processing below throws, wait for the read in flight before the buffers go out of scope.
+    struct Join {
+      std::future<void>& f;
+      ~Join() {
+        if (f.valid()) f.wait();
+      }
+    } join{pending};
     const long npix = tile.n_pixels();
     std::int64_t counts[5] = {0, 0, 0, 0, 0};
     std::int64_t me_iterations = 0;

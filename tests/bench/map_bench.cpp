@@ -82,7 +82,7 @@ void WriteCube(const std::string& path, long nx, long ny, long nw) {
   Check(status, "write");
 }
 
-double ReadWithCfitsio(const std::string& path, long rows_per_tile) {
+double ReadWithCfitsio(const std::string& path, long rows_per_tile, int datatype = TFLOAT) {
   const auto t0 = std::chrono::steady_clock::now();
   fitsfile* f = nullptr;
   int status = 0;
@@ -91,12 +91,12 @@ double ReadWithCfitsio(const std::string& path, long rows_per_tile) {
   int naxis = 0;
   fits_get_img_dim(f, &naxis, &status);
   fits_get_img_size(f, 4, naxes, &status);
-  std::vector<float> buf(static_cast<std::size_t>(naxes[0] * rows_per_tile * naxes[2] * naxes[3]));
+  std::vector<double> buf(static_cast<std::size_t>(naxes[0] * rows_per_tile * naxes[2] * naxes[3]));
   for (long y0 = 0; y0 < naxes[1]; y0 += rows_per_tile) {
     const long rows = std::min(rows_per_tile, naxes[1] - y0);
     long fpix[4] = {1, y0 + 1, 1, 1}, lpix[4] = {naxes[0], y0 + rows, naxes[2], naxes[3]}, inc[4] = {1, 1, 1, 1};
     int anynul = 0;
-    fits_read_subset(f, TFLOAT, fpix, lpix, inc, nullptr, buf.data(), &anynul, &status);
+    fits_read_subset(f, datatype, fpix, lpix, inc, nullptr, buf.data(), &anynul, &status);
   }
   fits_close_file(f, &status);
   Check(status, "read");
@@ -148,12 +148,14 @@ int main(int argc, char** argv) {
   zeeline::CubeReader probe(large);
   const long rows = probe.rows_per_tile();
   const double t_read = ReadWithCfitsio(large, rows);
+  const double t_read_double = ReadWithCfitsio(large, rows, TDOUBLE);
   const double t_reader = ReadWithCubeReader(large);
   const double t1 = MapWfa(large, 1);
   const double t2 = MapWfa(large, 2);
   const double rss_large = PeakRssMiB();
   std::printf("large cube %ld x %ld x %ld x 4 (%.0f MB), %ld rows per tile\n", n_large, n_large, nw, size_mb, rows);
   std::printf("  cfitsio read alone      %.2f s (%.0f MB/s)\n", t_read, size_mb / t_read);
+  std::printf("  cfitsio read as double  %.2f s\n", t_read_double);
   std::printf("  zeeline tile reader     %.2f s (%.2f x read; reorders to pixel-major doubles)\n", t_reader, t_reader / t_read);
   std::printf("  wfa map, 1 thread       %.2f s (%.2f x read, %.0f px/s)\n", t1, t1 / t_read,
               static_cast<double>(n_large * n_large) / t1);

@@ -103,7 +103,7 @@ void BM_MeInversion_1Line60Wavelengths(benchmark::State& state) {
 #pragma omp parallel num_threads(threads)
     {
       MeWorkspace w;
-#pragma omp for schedule(dynamic, 8)
+#pragma omp for schedule(dynamic, 1)
       for (int p = 0; p < kPixels; ++p) {
         const MeResult r = d.inverter.Invert(d.View(p), c, {}, w);
         iterations[p] = r.iterations;

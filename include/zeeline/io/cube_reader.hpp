@@ -55,6 +55,8 @@ struct CubeReadOptions {
   /// Scan the whole cube once on open: data range, NaN/Inf counts; throws FitsError if no sample is
   /// finite (all-NaN cube).
   bool scan_statistics = false;
+  /// Threads used to reorder a tile into pixel-major order (0 = all available, OpenMP).
+  int threads = 0;
 
   /// Empty when valid, otherwise a message naming the field, its value and the allowed range.
   std::string Validate() const;
