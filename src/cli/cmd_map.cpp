@@ -169,6 +169,7 @@ void RunMap(const MapArgs& a) {
 
   CubeReadOptions read;
   read.v_sign = a.v_sign;
+  read.threads = a.threads;  // the reorder of each tile uses the same threads as the estimators
   const std::string bad_read = read.Validate();
   if (!bad_read.empty()) throw OptionError(bad_read);
   CubeReader reader(a.cube, read);

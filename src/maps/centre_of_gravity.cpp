@@ -17,17 +17,14 @@ CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const Cont
   const std::size_t n = s.n;
   if (n < 3 || !s.V) return r;
   const double* l = s.wavelength_nm;
-  auto in_window = [&](std::size_t i) {
-    return o.window_halfwidth_nm <= 0.0 || std::fabs(l[i] - o.rest_wavelength_nm) <= o.window_halfwidth_nm;
-  };
+  const SampleRange win = WindowRange(l, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
   auto weight = [&](std::size_t i) {
     const double left = i > 0 ? l[i] - l[i - 1] : l[1] - l[0];
     const double right = i + 1 < n ? l[i + 1] - l[i] : l[n - 1] - l[n - 2];
     return 0.5 * (left + right);
   };
   double np = 0.0, dp = 0.0, nm = 0.0, dm = 0.0;
-  for (std::size_t i = 0; i < n; ++i) {
-    if (!in_window(i)) continue;
+  for (std::size_t i = win.begin; i < win.end; ++i) {
     const double w = weight(i);
     const double ap = (noise.continuum - s.I[i] - s.V[i]) * w;
     const double am = (noise.continuum - s.I[i] + s.V[i]) * w;
@@ -49,8 +46,7 @@ CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const Cont
   // Propagation: d l_+/d I_i = -(l_i - l_+) w_i / dp, d l_+/d V_i = -(l_i - l_+) w_i / dp;
   //              d l_-/d I_i = -(l_i - l_-) w_i / dm, d l_-/d V_i = +(l_i - l_-) w_i / dm.
   double var_diff = 0.0, var_mean = 0.0;
-  for (std::size_t i = 0; i < n; ++i) {
-    if (!in_window(i)) continue;
+  for (std::size_t i = win.begin; i < win.end; ++i) {
     const double w = weight(i);
     const double gp = -(l[i] - r.centroid_plus_nm) * w / dp;
     const double gm = -(l[i] - r.centroid_minus_nm) * w / dm;

@@ -1,6 +1,7 @@
 #include "zeeline/maps/field_maps.hpp"
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstring>
@@ -498,9 +499,11 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   // work on the current one. At most one read is in flight, so the reader is never used concurrently.
   CubeTile next_tile;
   std::future<void> pending;
+  // With a single thread there is no second thread: the read is deferred and runs inside pending.get().
+  const auto policy = threads > 1 ? std::launch::async : std::launch::deferred;
   auto start_read = [&](long y_begin, CubeTile& into) {
     const long count = std::min(rows_per_tile, info.ny - y_begin);
-    pending = std::async(std::launch::async, [&reader, y_begin, count, &into] { reader.ReadRows(y_begin, count, into); });
+    pending = std::async(policy, [&reader, y_begin, count, &into] { reader.ReadRows(y_begin, count, into); });
   };
   if (maps.rows_done < info.ny) start_read(maps.rows_done, next_tile);
   for (long y0 = maps.rows_done; y0 < info.ny; y0 += rows_per_tile) {
@@ -516,7 +519,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     struct Join {
       std::future<void>& f;
       ~Join() {
-        if (f.valid()) f.wait();
+        if (f.valid() && f.wait_for(std::chrono::seconds(0)) != std::future_status::deferred) f.wait();
       }
     } join{pending};
     const long npix = tile.n_pixels();

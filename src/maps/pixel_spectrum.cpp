@@ -1,5 +1,6 @@
 #include "zeeline/maps/pixel_spectrum.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <sstream>
 
@@ -14,6 +15,13 @@ std::string ValidateLineOptions(double rest_wavelength_nm, double g_eff, double 
   else if (!(window_halfwidth_nm >= 0.0))
     m << "window_halfwidth_nm = " << window_halfwidth_nm << " must be >= 0";
   return m.str();
+}
+
+SampleRange WindowRange(const double* wavelength_nm, std::size_t n, double centre_nm, double halfwidth_nm) {
+  if (halfwidth_nm <= 0.0) return {0, n};
+  const double* lo = std::lower_bound(wavelength_nm, wavelength_nm + n, centre_nm - halfwidth_nm);
+  const double* hi = std::upper_bound(lo, wavelength_nm + n, centre_nm + halfwidth_nm);
+  return {static_cast<std::size_t>(lo - wavelength_nm), static_cast<std::size_t>(hi - wavelength_nm)};
 }
 
 std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_t n, double lo_nm, double hi_nm) {

@@ -1,5 +1,6 @@
 #include "zeeline/maps/weak_field.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <sstream>
 
@@ -45,20 +46,19 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
   WeakFieldResult r;
   const std::size_t n = s.n;
   if (n < 5) return r;
+  // Derivatives only over the window and two samples either side (what the stencils need).
+  const SampleRange win = WindowRange(s.wavelength_nm, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
+  if (win.size() < 3) return r;
+  const std::size_t a = win.begin >= 2 ? win.begin - 2 : 0, b = std::min(n, win.end + 2);
   work.d1.resize(n);
   work.d2.resize(n);
-  FirstDerivative(s.wavelength_nm, s.I, n, work.d1.data());
+  FirstDerivative(s.wavelength_nm + a, s.I + a, b - a, work.d1.data() + a);
   const double C = LorentzUnit_nm(o.rest_wavelength_nm, 1.0);  // nm per gauss
   const double h = (s.wavelength_nm[n - 1] - s.wavelength_nm[0]) / static_cast<double>(n - 1);
 
-  auto in_window = [&](std::size_t i) {
-    return o.window_halfwidth_nm <= 0.0 || std::fabs(s.wavelength_nm[i] - o.rest_wavelength_nm) <= o.window_halfwidth_nm;
-  };
-
   // Observed line centre: centroid of |Ic - I| in the window.
   double wsum = 0.0, lsum = 0.0;
-  for (std::size_t i = 0; i < n; ++i) {
-    if (!in_window(i)) continue;
+  for (std::size_t i = win.begin; i < win.end; ++i) {
     const double depth = std::fabs(noise.continuum - s.I[i]);
     wsum += depth;
     lsum += depth * s.wavelength_nm[i];
@@ -69,8 +69,7 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
   if (s.V) {
     double sdd = 0.0, svd = 0.0;
     std::size_t used = 0;
-    for (std::size_t i = 0; i < n; ++i) {
-      if (!in_window(i)) continue;
+    for (std::size_t i = win.begin; i < win.end; ++i) {
       sdd += work.d1[i] * work.d1[i];
       svd += s.V[i] * work.d1[i];
       ++used;
@@ -88,12 +87,11 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
 
   // ---- B_T and azimuth from Q, U
   if (s.Q && s.U && std::fabs(o.G) > 1e-9) {
-    SecondDerivative(s.wavelength_nm, s.I, n, work.d2.data());
+    SecondDerivative(s.wavelength_nm + a, s.I + a, b - a, work.d2.data() + a);
     const double core = o.core_halfwidth_nm > 0.0 ? o.core_halfwidth_nm : 1e300;
     double sxx = 0.0, sqx = 0.0, sux = 0.0;
     std::size_t used = 0;
-    for (std::size_t i = 0; i < n; ++i) {
-      if (!in_window(i)) continue;
+    for (std::size_t i = win.begin; i < win.end; ++i) {
       const double dl = s.wavelength_nm[i] - r.line_centre_nm;
       double x = 0.0;  // model regressor: Q = x * a_Q
       bool use = false;

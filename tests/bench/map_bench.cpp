@@ -114,7 +114,9 @@ double ReadWithCubeReader(const std::string& path) {
 
 double MapWfa(const std::string& path, int threads) {
   const auto t0 = std::chrono::steady_clock::now();
-  zeeline::CubeReader reader(path);
+  zeeline::CubeReadOptions read;
+  read.threads = threads;
+  zeeline::CubeReader reader(path, read);
   zeeline::FieldMapOptions o;
   o.method = zeeline::MapMethod::kWeakField;
   o.rest_wavelength_nm = 630.25;

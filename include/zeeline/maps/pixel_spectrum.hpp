@@ -36,6 +36,14 @@ struct ContinuumEstimate {
 /// sensitive line (|g_eff| > 1e-6) and a non-negative window. Empty when valid, else the message.
 std::string ValidateLineOptions(double rest_wavelength_nm, double g_eff, double window_halfwidth_nm);
 
+/// Half-open index range [begin, end) of the samples within `halfwidth_nm` of `centre_nm` (inclusive) on an
+/// increasing grid; the whole grid when halfwidth_nm <= 0.
+struct SampleRange {
+  std::size_t begin = 0, end = 0;
+  std::size_t size() const { return end - begin; }
+};
+SampleRange WindowRange(const double* wavelength_nm, std::size_t n, double centre_nm, double halfwidth_nm);
+
 /// Sample indices whose wavelength lies in [lo_nm, hi_nm] (inclusive).
 std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_t n, double lo_nm, double hi_nm);
 
