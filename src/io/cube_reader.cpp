@@ -451,6 +451,7 @@ void CubeReader::Impl::Read(long y_begin, long y_count, CubeTileT<T>& tile) {
     for (long x = 0; x < nx; ++x, ++p) pixel_offset[static_cast<std::size_t>(p)] = x * sx + yy * sy;
   const long* off = pixel_offset.data();
   const long rec = static_cast<long>(ns) * nw;  // one pixel's record in the tile
+  const bool contiguous = sx == 1 && sy == nx;
   constexpr long kB = 8, kChunk = 64;  // 8 x 8 micro-blocks inside chunks of 64 pixels per thread
   const long chunks = (npix + kChunk - 1) / kChunk;
   auto reorder = [&](const auto* src) {
@@ -467,7 +468,11 @@ void CubeReader::Impl::Read(long y_begin, long y_count, CubeTileT<T>& tile) {
           for (long k = k0; k < k1; ++k) {
             const auto* sk_plane = splane + (rev ? nw - 1 - k : k) * sl;
             T* d = dst + s * nw + k;
-            for (long p = p0; p < p1; ++p) d[p * rec] = static_cast<T>(sk_plane[off[p]]) * sign;
+            if (contiguous) {  // x then y are the fastest file axes: pixel p sits at offset p of the plane
+              for (long p = p0; p < p1; ++p) d[p * rec] = static_cast<T>(sk_plane[p]) * sign;
+            } else {
+              for (long p = p0; p < p1; ++p) d[p * rec] = static_cast<T>(sk_plane[off[p]]) * sign;
+            }
           }
         }
       }
