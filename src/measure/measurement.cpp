@@ -252,8 +252,11 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
     m.split.vlos_kms = M(cf.vlos_kms, cf.vlos_err_kms);
     m.split.valid = cf.resolved;
     char buf[240];
-    std::snprintf(buf, sizeof buf, "sigma separation %.4g +- %.2g nm vs component FWHM %.4g nm (ratio %.3g)",
+    std::snprintf(buf, sizeof buf,
+                  "sigma separation %.4g +- %.2g nm vs component FWHM %.4g nm (separation/FWHM %.3g, "
+                  "resolution ratio %.3g)",
                   cf.sigma_separation_nm, cf.sigma_separation_err_nm, cf.component_fwhm_nm,
+                  cf.component_fwhm_nm > 0.0 ? cf.sigma_separation_nm / cf.component_fwhm_nm : 0.0,
                   o.resolution_ratio);
     m.split.verdict = (cf.resolved ? std::string("valid: resolved, ") : std::string("not resolved: ")) + buf;
   }
