@@ -75,7 +75,7 @@ void RunLande(const LandeArgs& a) {
 
 // ---------------------------------------------------------------------------- line
 struct LineArgs {
-  std::string lower, upper, wavelength, field, catalog;
+  std::string lower, upper, wavelength, field, catalog, line;
   std::optional<double> gs;
   bool json = false;
 };
@@ -143,7 +143,9 @@ void RunLine(const LineArgs& a) {
   if (!a.catalog.empty()) {
     if (!a.lower.empty() || !a.upper.empty() || !a.wavelength.empty())
       throw OptionError("--catalog cannot be combined with --lower/--upper/--wavelength");
-    for (const auto& e : ReadLineList(a.catalog)) {
+    std::vector<LineEntry> entries = ReadLineList(a.catalog);
+    if (!a.line.empty()) entries = {FindLine(entries, a.line, a.catalog)};
+    for (const auto& e : entries) {
       LineReport r;
       r.name = e.name;
       r.lower_text = e.lower.text;
@@ -157,6 +159,7 @@ void RunLine(const LineArgs& a) {
       reports.push_back(r);
     }
   } else {
+    if (!a.line.empty()) throw OptionError("--line NAME needs --catalog FILE");
     if (a.lower.empty() || a.upper.empty())
       throw OptionError("give --lower and --upper levels, or --catalog FILE");
     LineReport r;
@@ -170,7 +173,7 @@ void RunLine(const LineArgs& a) {
   }
   if (a.json) {
     JsonWriter w(std::cout);
-    if (a.catalog.empty()) {
+    if (a.catalog.empty() || !a.line.empty()) {
       WriteReportJson(w, reports.front(), field_gauss);
     } else {
       w.BeginArray();
@@ -212,12 +215,14 @@ void AddLineCommand(CLI::App& app) {
       "Examples:\n"
       "  zeeline line --lower 5P1 --upper 5D0 --wavelength 630.2494nm --field 1000G\n"
       "  zeeline line --lower 1P1 --upper 1D2 --gs 2 --json\n"
-      "  zeeline line --catalog demo_maps/lines.csv --field 0.5T");
+      "  zeeline line --catalog demo_maps/lines.csv --field 0.5T\n"
+      "  zeeline line --catalog demo_maps/lines.csv --line NeI_6402 --field 0.5T --json");
   cmd->add_option("--lower", args->lower, "lower level designation");
   cmd->add_option("--upper", args->upper, "upper level designation");
   cmd->add_option("--wavelength", args->wavelength, "rest wavelength with unit, e.g. 630.2494nm or 6302.494A");
   cmd->add_option("--field", args->field, "field strength with unit, e.g. 1000G, 1.2kG, 0.1T");
   cmd->add_option("--catalog", args->catalog, "line list file (docs/line_list.md); reports every line");
+  cmd->add_option("--line", args->line, "with --catalog: report only this line");
   cmd->add_option("--gs", args->gs, "electron spin g-factor (default CODATA; 2 = textbook)");
   cmd->add_flag("--json", args->json, "machine-readable output (keys: g_eff, G, components, lorentz_shift_nm)");
   cmd->callback([args] { RunLine(*args); });
