@@ -110,6 +110,16 @@ lam = 630.2494e-9
 ref_nm = sc.e * lam ** 2 * 0.15 / (4 * math.pi * sc.m_e * sc.c) * 1e9
 check(abs(res["lorentz_shift_nm"] - ref_nm) < 1e-9 * ref_nm, f"lorentz_shift_nm {res['lorentz_shift_nm']} vs {ref_nm}")
 
+# -- one line of a catalog: Na D2 (2S1/2 -> 2P3/2), g_eff = 7/6 with g_s = 2 (textbook value, from memory)
+import os
+catalog = os.path.join(os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)))), "demo_maps",
+                       "lines.csv")
+res = json.loads(run("line", "--catalog", catalog, "--line", "NaI_D2", "--gs", "2", "--json").stdout)
+check(isinstance(res, dict) and res.get("name") == "NaI_D2", f"--line gives one object: {str(res)[:80]}")
+check(abs(res["g_eff"] - 7.0 / 6.0) < 1e-12, f"NaI_D2 g_eff {res['g_eff']}")
+p = run("line", "--catalog", catalog, "--line", "NoSuchLine", expect_rc=1)
+check("NoSuchLine" in p.stderr and "NaI_D2" in p.stderr, f"unknown line message: {p.stderr!r}")
+
 # -- errors: bad level exits 1 naming the token; bad unit exits 2; J=0->0 refused
 p = run("lande", "3P3", expect_rc=1)
 check("3P3" in p.stderr and "cannot be reached" in p.stderr, f"bad level message: {p.stderr!r}")
