@@ -9,39 +9,19 @@
 #include <gtest/gtest.h>
 
 #include "zeeline/maps/centre_of_gravity.hpp"
-#include "zeeline/synth/stokes_synthesizer.hpp"
+#include "maps/me_spectrum.hpp"
 
 namespace zeeline {
 namespace {
 
 double CogBlos(double field, double incl, double eta0) {
-  const ZeemanPattern p = ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0"));
-  MeLine line;
-  line.wavelength_nm = 630.2494;
-  line.pattern = p;
-  const int n = 241;
-  const Eigen::ArrayXd grid = UniformWavelengthGrid(630.2494, 0.12, n);
-  StokesSynthesizer synth({line}, grid, {});
-  MeParameters mp;
-  mp.field_gauss = field;
-  mp.inclination_deg = incl;
-  mp.doppler_width_nm = 2.6e-3;
-  mp.damping = 0.15;
-  mp.eta0 = eta0;
-  mp.s0 = 0.25;
-  mp.s1 = 0.75;
-  StokesArray a(n, 4);
-  synth.Synthesize(mp, a);
-  std::vector<double> wl(grid.data(), grid.data() + n), I(n), V(n);
-  for (int i = 0; i < n; ++i) {
-    I[i] = a(i, 0);
-    V[i] = a(i, 3);
-  }
+  const testing::MeSpectrum m =
+      testing::SynthesizeMe("5P1", "5D0", 630.2494, 0.12, 241, testing::Atmosphere(field, incl, 0.0, eta0));
   ContinuumEstimate c;
-  c.continuum = I.front();
+  c.continuum = m.I.front();
   c.noise_I = c.noise_V = 1e-3;
-  const PixelSpectrum s{wl.data(), wl.size(), I.data(), nullptr, nullptr, V.data()};
-  const auto r = CentreOfGravityEstimate(s, c, {630.2494, p.g_eff, 0.05});
+  const PixelSpectrum s{m.wl.data(), m.wl.size(), m.I.data(), nullptr, nullptr, m.V.data()};
+  const auto r = CentreOfGravityEstimate(s, c, {630.2494, m.pattern.g_eff, 0.05});
   EXPECT_TRUE(r.ok);
   return r.blos_gauss;
 }

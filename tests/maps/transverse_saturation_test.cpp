@@ -7,7 +7,7 @@
 #include <gtest/gtest.h>
 
 #include "zeeline/maps/weak_field.hpp"
-#include "zeeline/synth/stokes_synthesizer.hpp"
+#include "maps/me_spectrum.hpp"
 
 namespace zeeline {
 namespace {
@@ -17,43 +17,25 @@ constexpr double kLine = 630.1501;
 constexpr double kDoppler = 2.5e-3;
 
 WeakFieldResult FitTransverse(double eta0, TransverseRegion region, double core, double wing_start) {
-  const ZeemanPattern p = ComputeZeemanPattern(ParseLevel("5P2"), ParseLevel("5D2"));
-  MeLine line;
-  line.wavelength_nm = kLine;
-  line.pattern = p;
-  const int n = 321;
-  const Eigen::ArrayXd grid = UniformWavelengthGrid(kLine, 0.08, n);
-  StokesSynthesizer synth({line}, grid, {});
-  MeParameters mp;
-  mp.field_gauss = kTruth;
-  mp.inclination_deg = 90.0;
-  mp.azimuth_deg = 30.0;
+  MeParameters mp = testing::Atmosphere(kTruth, 90.0, 30.0, eta0);
   mp.doppler_width_nm = kDoppler;
   mp.damping = 0.3;
-  mp.eta0 = eta0;
   mp.s0 = 0.2;
   mp.s1 = 0.8;
-  StokesArray a(n, 4);
-  synth.Synthesize(mp, a);
-  static std::vector<double> wl, I, Q, U, V;
-  wl.assign(grid.data(), grid.data() + n);
-  I.assign(a.col(0).data(), a.col(0).data() + n);
-  Q.assign(a.col(1).data(), a.col(1).data() + n);
-  U.assign(a.col(2).data(), a.col(2).data() + n);
-  V.assign(a.col(3).data(), a.col(3).data() + n);
+  const testing::MeSpectrum m = testing::SynthesizeMe("5P2", "5D2", kLine, 0.08, 321, mp);
   ContinuumEstimate c;
-  c.continuum = I.front();
+  c.continuum = m.I.front();
   c.noise_I = c.noise_Q = c.noise_U = c.noise_V = 1e-4;
   WeakFieldOptions o;
   o.rest_wavelength_nm = kLine;
-  o.g_eff = p.g_eff;
-  o.G = p.G;
+  o.g_eff = m.pattern.g_eff;
+  o.G = m.pattern.G;
   o.window_halfwidth_nm = 0.035;
   o.transverse = region;
   o.core_halfwidth_nm = core;
   o.wing_start_nm = wing_start;
   WeakFieldWorkspace work;
-  return WeakFieldEstimate({wl.data(), wl.size(), I.data(), Q.data(), U.data(), V.data()}, c, o, work);
+  return WeakFieldEstimate(m.View(), c, o, work);
 }
 
 TEST(TransverseWeakField, WholeLineFitIsFineForAWeakLine) {

@@ -10,33 +10,19 @@
 #include <gtest/gtest.h>
 
 #include "zeeline/maps/weak_field.hpp"
-#include "zeeline/synth/stokes_synthesizer.hpp"
+#include "maps/me_spectrum.hpp"
 
 namespace zeeline {
 namespace {
 
 TEST(WeakFieldOnMilneEddington, BlosPullWidthIsCalibrated) {
-  const ZeemanPattern p = ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0"));
-  MeLine line;
-  line.wavelength_nm = 630.2494;
-  line.pattern = p;
   const int n = 96;
-  const Eigen::ArrayXd grid = UniformWavelengthGrid(630.2494, 0.06, n);
-  StokesSynthesizer synth({line}, grid, {});
-  MeParameters mp;
-  mp.field_gauss = 40.0;
-  mp.inclination_deg = 30.0;
-  mp.azimuth_deg = 20.0;
-  mp.doppler_width_nm = 2.6e-3;
-  mp.damping = 0.15;
-  mp.eta0 = 9.0;
-  mp.s0 = 0.25;
-  mp.s1 = 0.75;
-  StokesArray clean(n, 4);
-  synth.Synthesize(mp, clean);
+  const testing::MeSpectrum clean =
+      testing::SynthesizeMe("5P1", "5D0", 630.2494, 0.06, n, testing::Atmosphere(40.0, 30.0, 20.0, 9.0));
+  const ZeemanPattern& p = clean.pattern;
   const double truth = 40.0 * std::cos(30.0 * constants::kPi / 180.0);
 
-  std::vector<double> wl(grid.data(), grid.data() + n), I(n), Q(n), U(n), V(n);
+  std::vector<double> wl = clean.wl, I(n), Q(n), U(n), V(n);
   WeakFieldOptions o;
   o.rest_wavelength_nm = 630.2494;
   o.g_eff = p.g_eff;
@@ -50,10 +36,10 @@ TEST(WeakFieldOnMilneEddington, BlosPullWidthIsCalibrated) {
   const int realisations = 300;
   for (int k = 0; k < realisations; ++k) {
     for (int i = 0; i < n; ++i) {
-      I[i] = clean(i, 0) + gauss(rng);
-      Q[i] = clean(i, 1) + gauss(rng);
-      U[i] = clean(i, 2) + gauss(rng);
-      V[i] = clean(i, 3) + gauss(rng);
+      I[i] = clean.I[i] + gauss(rng);
+      Q[i] = clean.Q[i] + gauss(rng);
+      U[i] = clean.U[i] + gauss(rng);
+      V[i] = clean.V[i] + gauss(rng);
     }
     const PixelSpectrum s{wl.data(), wl.size(), I.data(), Q.data(), U.data(), V.data()};
     const WeakFieldResult r = WeakFieldEstimate(s, EstimateContinuum(s, continuum), o, work);
