@@ -59,7 +59,7 @@ std::vector<std::string> SplitList(const std::string& text, char sep) {
   return out;
 }
 
-// A value of a Milne-Eddington parameter: the field accepts units (G, kG, T, mT), vlos too (km/s, m/s);
+// A value of a Milne-Eddington parameter: b_total accepts units (G, kG, T, mT), v_los too (km/s, m/s);
 // the others are plain numbers in the units of me_parameters.hpp (doppler_width accepts wavelength units).
 double ParseMeValue(MeParam p, const std::string& text) {
   if (p == MeParam::kField) return ParseField_gauss(text);
@@ -77,7 +77,7 @@ double ParseMeValue(MeParam p, const std::string& text) {
   return v;
 }
 
-// --fix fill=1,damping=0.15 ; --free fill,damping ; --bounds field=0:4000,vlos=-10:10 ;
+// --fix fill=1,damping=0.15 ; --free fill,damping ; --bounds b_total=0:4000,v_los=-10:10 ;
 // --stokes-weights 1,4,4,2 (into o.me).
 void ApplyMeOptions(const MapArgs& a, FieldMapOptions& o) {
   MeInversionOptions& me = o.me;
@@ -96,7 +96,7 @@ void ApplyMeOptions(const MapArgs& a, FieldMapOptions& o) {
   for (const std::string& item : SplitList(a.bounds, ',')) {
     const auto eq = item.find('='), colon = item.find(':', eq == std::string::npos ? 0 : eq);
     if (eq == std::string::npos || colon == std::string::npos)
-      throw OptionError("--bounds '" + item + "': expected NAME=LOW:HIGH, e.g. field=0:4000");
+      throw OptionError("--bounds '" + item + "': expected NAME=LOW:HIGH, e.g. b_total=0:4000");
     const MeParam p = MeParamFromName(item.substr(0, eq));
     me.lower[static_cast<int>(p)] = ParseMeValue(p, item.substr(eq + 1, colon - eq - 1));
     me.upper[static_cast<int>(p)] = ParseMeValue(p, item.substr(colon + 1));
@@ -262,14 +262,14 @@ void RunMap(const MapArgs& a) {
   method.keywords.push_back({"METH4", std::string("me"), "Milne-Eddington inversion"});
   hdus.push_back(method);
   if (!maps.disambiguation.empty()) {
-    ImageHdu d = MakeMap("DISAMBIG", maps.nx, maps.ny,
+    ImageHdu d = MakeMap("AZIM_PICK", maps.nx, maps.ny,
                          std::vector<double>(maps.disambiguation.begin(), maps.disambiguation.end()));
     d.type = FitsPixelType::kInt16;
     d.bunit.clear();
-    d.keywords.push_back({"DISAMB0", std::string("none"), "no azimuth"});
-    d.keywords.push_back({"DISAMB1", std::string("acute"), "acute angle to the potential field"});
-    d.keywords.push_back({"DISAMB2", std::string("weak"), "acute angle, BTRANS below threshold"});
-    d.keywords.push_back({"DISAMB3", std::string("smoothed"), "flipped by the smoothness pass"});
+    d.keywords.push_back({"AZPICK0", std::string("none"), "no azimuth"});
+    d.keywords.push_back({"AZPICK1", std::string("acute"), "acute angle to the potential field"});
+    d.keywords.push_back({"AZPICK2", std::string("weak"), "acute angle, B_TRANS below threshold"});
+    d.keywords.push_back({"AZPICK3", std::string("smoothed"), "flipped by the smoothness pass"});
     hdus.push_back(d);
   }
   ImageHdu quality = MakeMap(map_names::kQuality, maps.nx, maps.ny,
@@ -289,7 +289,7 @@ void RunMap(const MapArgs& a) {
     w.provenance.history.push_back("extra line " + std::to_string(l.wavelength_nm) + " nm, relative strength " +
                                    std::to_string(l.relative_strength));
   if (o.disambiguate)
-    w.provenance.history.push_back("AZIMUTH disambiguated (acute angle to the potential field), range [0, 360) deg");
+    w.provenance.history.push_back("B_AZIM disambiguated (acute angle to the potential field), range [0, 360) deg");
   WriteFieldMaps(a.output, hdus, info.spatial_wcs_header, w);
   if (a.resume) fs::remove(run.checkpoint_path, ec);
   std::vector<std::string> pngs;
@@ -319,7 +319,7 @@ void RunMap(const MapArgs& a) {
 void AddMapCommand(CLI::App& app, int argc, char** argv) {
   auto a = std::make_shared<MapArgs>();
   a->command_line = JoinArgs(argc, argv);
-  auto* cmd = app.add_subcommand("map", "Field maps (BLOS, BTRANS, FIELD, INCLINATION, AZIMUTH, VLOS + errors) from a Stokes cube");
+  auto* cmd = app.add_subcommand("map", "Field maps (B_LOS, B_TRANS, B_TOTAL, B_INCL, B_AZIM, V_LOS + errors) from a Stokes cube");
   cmd->footer(
       "Methods: wfa (weak field), cog (centre of gravity), split (resolved splitting), me (Milne-Eddington\n"
       "inversion, docs/me_inversion.md), auto (per pixel, recorded in the METHOD map; thresholds in docs/methods.md).\n"
@@ -336,7 +336,7 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("--window", a->window, "half-width of the fit window around the line, e.g. 0.012nm (default: from the mean line profile)");
   cmd->add_option("--continuum-exclude", a->continuum_exclude, "continuum = samples farther than this from the line (default: the window)");
   cmd->add_option("--noise", a->noise, "noise in units of the continuum (default: measured in the continuum)");
-  cmd->add_option("--transverse", a->transverse, "weak-field BTRANS region: core | wings | core+wings | whole")->capture_default_str();
+  cmd->add_option("--transverse", a->transverse, "weak-field B_TRANS region: core | wings | core+wings | whole")->capture_default_str();
   cmd->add_option("--core", a->core, "weak-field core half-width, e.g. 0.006nm");
   cmd->add_option("--wing-start", a->wing_start, "weak-field wing region start from line centre, e.g. 0.008nm");
   cmd->add_option("--weak-ratio", a->weak_ratio, "auto: splitting/width below which wfa is used")->capture_default_str();
@@ -347,7 +347,7 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("--threads", a->threads, "worker threads (0 = all cores)")->capture_default_str();
   cmd->add_option("--fix", a->fix, "me: fix parameters, e.g. fill=1,damping=0.15 (fill is fixed at 1 by default)");
   cmd->add_option("--free", a->free, "me: free parameters, e.g. fill");
-  cmd->add_option("--bounds", a->bounds, "me: bounds, e.g. field=0:4000,vlos=-10:10");
+  cmd->add_option("--bounds", a->bounds, "me: bounds, e.g. b_total=0:4000,v_los=-10:10");
   cmd->add_option("--stokes-weights", a->stokes_weights, "me: weights of I,Q,U,V in chi2, e.g. 1,4,4,2");
   cmd->add_option("--extra-line", a->extra_lines,
                   "me: another line of the --catalog in the window, NAME[:RELATIVE_STRENGTH] (repeatable)");
@@ -357,9 +357,9 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("--mu", a->mu, "me: cos(heliocentric angle) of the observation")->capture_default_str();
   cmd->add_flag("--no-auto-me", a->no_auto_me, "auto: use cog instead of me where wfa and split are invalid");
   cmd->add_flag("--disambiguate", a->disambiguate,
-                "resolve the 180-deg azimuth ambiguity (acute angle to the potential field; AZIMUTH in [0, 360), DISAMBIG map)");
+                "resolve the 180-deg azimuth ambiguity (acute angle to the potential field; B_AZIM in [0, 360), AZIM_PICK map)");
   cmd->add_option("--smooth-azimuth", a->smooth_azimuth, "disambiguation: neighbour-consistency passes (0-20)")->capture_default_str();
-  cmd->add_option("--disambig-sigma", a->disambig_sigma, "disambiguation: BTRANS/error below which a pixel is flagged weak")->capture_default_str();
+  cmd->add_option("--disambig-sigma", a->disambig_sigma, "disambiguation: B_TRANS/error below which a pixel is flagged weak")->capture_default_str();
   cmd->add_option("--png", a->png_dir, "also write quicklook PNGs into this directory");
   cmd->add_flag("--overwrite", a->overwrite, "replace an existing output file");
   cmd->add_flag("--resume", a->resume, "keep a checkpoint (OUTPUT.checkpoint) and continue an interrupted run from it");

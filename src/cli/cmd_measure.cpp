@@ -232,8 +232,8 @@ std::vector<std::string> Summary(const Spectrum1D& s, const SelectedLine& line, 
   for (const MethodEstimate* e : {&m.wfa, &m.cog, &m.split, &m.split_3gauss, &m.me}) {
     std::string row = "  " + e->method + std::string(14 - e->method.size(), ' ');
     if (e->available) {
-      if (e->blos_gauss.defined()) row += "BLOS " + PlusMinus(e->blos_gauss, "%.1f") + " G  ";
-      if (e->btrans_gauss.defined()) row += "BTRANS " + PlusMinus(e->btrans_gauss, "%.1f") + " G  ";
+      if (e->blos_gauss.defined()) row += "B_LOS " + PlusMinus(e->blos_gauss, "%.1f") + " G  ";
+      if (e->btrans_gauss.defined()) row += "B_TRANS " + PlusMinus(e->btrans_gauss, "%.1f") + " G  ";
       if (e->field_gauss.defined()) row += "|B| " + PlusMinus(e->field_gauss, "%.1f") + " G  ";
       if (e->azimuth_deg.defined()) row += "azimuth " + PlusMinus(e->azimuth_deg, "%.1f") + " deg  ";
       if (e->vlos_kms.defined()) row += "vlos " + PlusMinus(e->vlos_kms, "%.3f") + " km/s";
@@ -323,7 +323,7 @@ void WritePng(const std::string& path, const Spectrum1D& s, const SelectedLine& 
   std::vector<std::string> text = Wrap(Summary(s, line, m), 52);
   text.push_back("");
   text.push_back("red: component model; dashed colours: groups;");
-  text.push_back("dashed red on V: weak-field V with BLOS(wfa)");
+  text.push_back("dashed red on V: weak-field V with B_LOS(wfa)");
   p.annotation = text;
   try {
     WriteStokesPlotPng(path, w, st, p);

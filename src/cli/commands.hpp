@@ -28,7 +28,7 @@ void AddLineCommand(CLI::App& app);
 void AddProfileCommand(CLI::App& app);
 /// argc/argv are recorded in the output provenance.
 void AddMapCommand(CLI::App& app, int argc, char** argv);
-void AddSynthCommand(CLI::App& app, int argc, char** argv);
+void AddSimulateCommand(CLI::App& app, int argc, char** argv);
 void AddMeasureCommand(CLI::App& app);
 void AddInfoCommand(CLI::App& app);
 void AddViewCommand(CLI::App& app);

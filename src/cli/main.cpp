@@ -18,7 +18,7 @@ int main(int argc, char** argv) {
   zeeline::cli::AddLineCommand(app);
   zeeline::cli::AddProfileCommand(app);
   zeeline::cli::AddMapCommand(app, argc, argv);
-  zeeline::cli::AddSynthCommand(app, argc, argv);
+  zeeline::cli::AddSimulateCommand(app, argc, argv);
   zeeline::cli::AddMeasureCommand(app);
   zeeline::cli::AddInfoCommand(app);
   zeeline::cli::AddViewCommand(app);

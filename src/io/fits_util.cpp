@@ -4,6 +4,7 @@
 #include <wcslib/wcsutil.h>
 
 #include <cstdio>
+#include <cstdlib>
 #include <mutex>
 
 namespace zeeline::io_detail {
@@ -90,6 +91,41 @@ bool ParseHeaderWcs(const std::string& header, int nkeys, WcsHolder& out, std::s
   return true;
 }
 
+namespace {
+// Tidies one card written by wcshdo: drops MJDREF/MJDREFI/MJDREFF = 0 (the FITS time default that
+// wcslib writes even when the input had no time reference; FITS WCS Paper VII, Rots et al. 2015, sect.
+// 4.1.2.1, from memory) and separates the CTYPE comment that wcslib runs together ("Coordinate type
+// codegnomonic projection"). Returns an empty string for a card to drop.
+std::string TidyWcsCard(const std::string& card) {
+  const std::string key = CardKeyword(card);
+  if (key == "MJDREF" || key == "MJDREFI" || key == "MJDREFF") {
+    const std::size_t eq = card.find('=');
+    const std::size_t slash = card.find('/', eq == std::string::npos ? 0 : eq);
+    if (eq != std::string::npos) {
+      const std::string value = Trim(card.substr(eq + 1, slash == std::string::npos ? std::string::npos : slash - eq - 1));
+      char* end = nullptr;
+      const double v = std::strtod(value.c_str(), &end);
+      if (end != value.c_str() && *end == '\0' && v == 0.0) return "";
+    }
+    return card;
+  }
+  if (key.rfind("CTYPE", 0) == 0) {
+    static const std::string kCode = "Coordinate type code";
+    const std::size_t q = card.find('\'', 10);
+    const std::size_t q2 = q == std::string::npos ? q : card.find('\'', q + 1);
+    const std::size_t slash = q2 == std::string::npos ? q2 : card.find('/', q2 + 1);
+    if (slash == std::string::npos) return card;
+    const std::size_t c = card.find(kCode, slash);
+    if (c == std::string::npos) return card;
+    const std::string rest = Trim(card.substr(c + kCode.size()));
+    std::string out = card.substr(0, c) + kCode + (rest.empty() ? "" : ", " + rest);
+    if (out.size() > 80) out.resize(80);
+    return out;
+  }
+  return card;
+}
+}  // namespace
+
 bool WcsToCards(wcsprm& wcs, std::string& cards, std::string& error) {
   EnableWcsErrors();
   char* out = nullptr;
@@ -103,7 +139,8 @@ bool WcsToCards(wcsprm& wcs, std::string& cards, std::string& error) {
   for (const auto& card : SplitCards(std::string(out, static_cast<std::size_t>(nrec) * 80))) {
     const std::string key = CardKeyword(card);
     if (key == "COMMENT" || key.empty()) continue;
-    std::string padded = card;
+    std::string padded = TidyWcsCard(card);
+    if (padded.empty()) continue;
     padded.resize(80, ' ');
     cards += padded;
   }

@@ -37,7 +37,7 @@ struct FftwPlan {
 std::string DisambiguationOptions::Validate() const {
   std::ostringstream m;
   if (!(min_btrans_sigma >= 0.0) || !std::isfinite(min_btrans_sigma))
-    m << "disambiguation min BTRANS sigma = " << min_btrans_sigma << " must be finite and >= 0";
+    m << "disambiguation min B_TRANS sigma = " << min_btrans_sigma << " must be finite and >= 0";
   else if (smoothing_passes < 0 || smoothing_passes > 20)
     m << "disambiguation smoothing passes = " << smoothing_passes << " must be in [0, 20]";
   return m.str();
@@ -48,7 +48,7 @@ void PotentialTransverseField(long nx, long ny, const std::vector<double>& bz, s
   if (nx < 2 || ny < 2) throw OptionError("potential field: map size " + std::to_string(nx) + " x " +
                                           std::to_string(ny) + " must be at least 2 x 2");
   const std::size_t np = static_cast<std::size_t>(nx * ny);
-  if (bz.size() != np) throw OptionError("potential field: BLOS has " + std::to_string(bz.size()) +
+  if (bz.size() != np) throw OptionError("potential field: B_LOS has " + std::to_string(bz.size()) +
                                          " values for a " + std::to_string(nx) + " x " + std::to_string(ny) + " map");
   const long mx = 2 * nx, my = 2 * ny, mxc = mx / 2 + 1;  // zero-padded sizes; r2c keeps mx/2 + 1 columns
   const std::size_t nreal = static_cast<std::size_t>(mx * my), ncplx = static_cast<std::size_t>(my * mxc);
@@ -100,7 +100,7 @@ void DisambiguateAzimuth(long nx, long ny, const std::vector<float>& blos, const
   if (!problem.empty()) throw OptionError(problem);
   const std::size_t np = static_cast<std::size_t>(nx * ny);
   if (blos.size() != np || btrans.size() != np || azimuth.size() != np || (!btrans_err.empty() && btrans_err.size() != np))
-    throw OptionError("disambiguation: BLOS, BTRANS, BTRANS_ERR and AZIMUTH must all have " + std::to_string(np) +
+    throw OptionError("disambiguation: B_LOS, B_TRANS, B_TRANS_SIGMA and B_AZIM must all have " + std::to_string(np) +
                       " values (" + std::to_string(nx) + " x " + std::to_string(ny) + ")");
   std::vector<double> bz(blos.begin(), blos.end()), bx, by;
   PotentialTransverseField(nx, ny, bz, bx, by);
@@ -126,7 +126,7 @@ long SmoothAzimuth(long nx, long ny, const std::vector<float>& btrans, std::vect
                    std::vector<std::int16_t>& flags, int passes) {
   const std::size_t np = static_cast<std::size_t>(nx * ny);
   if (btrans.size() != np || azimuth.size() != np || flags.size() != np)
-    throw OptionError("azimuth smoothing: BTRANS, AZIMUTH and flags must all have " + std::to_string(np) + " values");
+    throw OptionError("azimuth smoothing: B_TRANS, B_AZIM and flags must all have " + std::to_string(np) + " values");
   // Jacobi style: decisions of one pass use the previous pass's azimuths.
   std::vector<float> next;
   long flipped = 0;

@@ -372,9 +372,9 @@ bool LoadCheckpoint(const std::string& path, const std::string& fingerprint, Fie
 }  // namespace
 
 const char* MapSlotName(int slot) {
-  static const char* kNames[kSlotCount] = {"FIELD",  "FIELD_ERR",  "INCLINATION", "INCLINATION_ERR", "AZIMUTH",
-                                           "AZIMUTH_ERR", "BLOS", "BLOS_ERR", "BTRANS", "BTRANS_ERR",
-                                           "VLOS",   "VLOS_ERR",   "CHI2"};
+  static const char* kNames[kSlotCount] = {"B_TOTAL",  "B_TOTAL_SIGMA",  "B_INCL", "B_INCL_SIGMA", "B_AZIM",
+                                           "B_AZIM_SIGMA", "B_LOS", "B_LOS_SIGMA", "B_TRANS", "B_TRANS_SIGMA",
+                                           "V_LOS",   "V_LOS_SIGMA",   "CHI2"};
   return (slot >= 0 && slot < kSlotCount) ? kNames[slot] : "?";
 }
 
@@ -427,10 +427,10 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   const bool has_qu = sq >= 0 && su >= 0, has_v = sv >= 0;
   if (o.need_transverse && !has_qu)
     throw FitsError(info.path + ": the STOKES axis holds " + present +
-                    " only; BTRANS, AZIMUTH, FIELD and INCLINATION need Stokes Q and U (codes 2 and 3)");
+                    " only; B_TRANS, B_AZIM, B_TOTAL and B_INCL need Stokes Q and U (codes 2 and 3)");
   if (!has_v && (o.method == MapMethod::kWeakField || o.method == MapMethod::kCentreOfGravity))
     throw FitsError(info.path + ": the STOKES axis holds " + present + "; method '" + ToString(o.method) +
-                    "' needs Stokes V (code 4) for BLOS");
+                    "' needs Stokes V (code 4) for B_LOS");
   if (info.wavelength_nm.size() < 10)
     throw FitsError(info.path + ": the spectral axis has " + std::to_string(info.wavelength_nm.size()) +
                     " samples; at least 10 are needed");

@@ -141,7 +141,7 @@ double WrapAzimuth(double a) {
 
 // ---------------------------------------------------------------------------------------------------
 MeParam MeParamFromName(const std::string& name) {
-  static const char* kShort[kN] = {"field", "inclination", "azimuth", "vlos", "doppler_width",
+  static const char* kShort[kN] = {"b_total", "b_incl", "b_azim", "v_los", "doppler_width",
                                    "damping", "eta0", "s0", "s1", "fill"};
   for (int j = 0; j < kN; ++j) {
     const auto p = static_cast<MeParam>(j);

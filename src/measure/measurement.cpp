@@ -219,7 +219,7 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
                   m.wfa.valid ? "<" : ">=", o.weak_ratio);
     m.wfa.verdict = m.wfa.valid ? std::string("valid: ") + buf
                                 : std::string("outside validity: ") + buf + " (splitting not small against the line width)";
-    if (!w.has_btrans && s.has_qu() && o.pattern.G == 0.0) m.wfa.verdict += "; no BTRANS: G = 0 for this line";
+    if (!w.has_btrans && s.has_qu() && o.pattern.G == 0.0) m.wfa.verdict += "; no B_TRANS: G = 0 for this line";
   }
 
   // cog
@@ -236,8 +236,8 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
     bool triplet = true;
     for (const auto& c : o.pattern.components)
       if (c.q != 0 && std::fabs(std::fabs(c.shift_lorentz) - std::fabs(o.pattern.g_eff)) > 1e-9) triplet = false;
-    m.cog.verdict = triplet ? "valid: BLOS at any field strength for a (normal or anomalous) triplet"
-                            : "valid: BLOS at any field strength; approximate for this anomalous pattern";
+    m.cog.verdict = triplet ? "valid: B_LOS at any field strength for a (normal or anomalous) triplet"
+                            : "valid: B_LOS at any field strength; approximate for this anomalous pattern";
   }
 
   // split (component fit)

@@ -7,10 +7,10 @@ namespace zeeline {
 
 const char* MeParamName(MeParam p) {
   switch (p) {
-    case MeParam::kField: return "field_gauss";
-    case MeParam::kInclination: return "inclination_deg";
-    case MeParam::kAzimuth: return "azimuth_deg";
-    case MeParam::kVlos: return "vlos_kms";
+    case MeParam::kField: return "b_total_gauss";
+    case MeParam::kInclination: return "b_incl_deg";
+    case MeParam::kAzimuth: return "b_azim_deg";
+    case MeParam::kVlos: return "v_los_kms";
     case MeParam::kDopplerWidth: return "doppler_width_nm";
     case MeParam::kDamping: return "damping";
     case MeParam::kEta0: return "eta0";
@@ -32,10 +32,10 @@ bool OutOfRange(std::ostringstream& msg, const char* name, double v, double lo, 
 
 std::string MeParameters::Validate() const {
   std::ostringstream msg;
-  OutOfRange(msg, "field_gauss", field_gauss, 0.0, 1.0e6, "[0, 1e6] G") ||
-      OutOfRange(msg, "inclination_deg", inclination_deg, 0.0, 180.0, "[0, 180] deg") ||
-      OutOfRange(msg, "azimuth_deg", azimuth_deg, -1.0e4, 1.0e4, "[-1e4, 1e4] deg") ||
-      OutOfRange(msg, "vlos_kms", vlos_kms, -3.0e4, 3.0e4, "[-3e4, 3e4] km/s") ||
+  OutOfRange(msg, "b_total_gauss", field_gauss, 0.0, 1.0e6, "[0, 1e6] G") ||
+      OutOfRange(msg, "b_incl_deg", inclination_deg, 0.0, 180.0, "[0, 180] deg") ||
+      OutOfRange(msg, "b_azim_deg", azimuth_deg, -1.0e4, 1.0e4, "[-1e4, 1e4] deg") ||
+      OutOfRange(msg, "v_los_kms", vlos_kms, -3.0e4, 3.0e4, "[-3e4, 3e4] km/s") ||
       OutOfRange(msg, "doppler_width_nm", doppler_width_nm, 1.0e-7, 10.0, "[1e-7, 10] nm") ||
       OutOfRange(msg, "damping", damping, 0.0, 100.0, "[0, 100]") ||
       OutOfRange(msg, "eta0", eta0, 0.0, 1.0e7, "[0, 1e7]") ||

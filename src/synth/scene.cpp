@@ -49,10 +49,12 @@ Scene MakeDemoScene(const DemoSceneOptions& o) {
       p.s0 = 0.25;
       p.s1 = 0.75;
       p.fill = 1.0;
+      // Azimuths are the direction of the horizontal field on [0, 360) (not folded): the spectra depend on
+      // 2 x azimuth only, so this is the truth a disambiguated map can be compared with.
       // Quiet background: weak, strongly inclined field with a slowly varying azimuth.
       p.field_gauss = 35.0 + 20.0 * std::sin(0.35 * X) * std::cos(0.27 * Y);
       p.inclination_deg = 70.0 + 15.0 * std::cos(0.21 * X + 0.13 * Y);
-      p.azimuth_deg = std::fmod(40.0 + 3.0 * X + 2.0 * Y, 180.0);
+      p.azimuth_deg = std::fmod(40.0 + 3.0 * X + 2.0 * Y, 360.0);
       p.vlos_kms = 0.3 * std::sin(0.5 * X) * std::cos(0.4 * Y);
       // Positive concentration: 2.6 kG vertical at the centre, fanning out to 70 deg at the edge.
       const double dxp = X - px, dyp = Y - py, rpos = std::hypot(dxp, dyp);
@@ -60,7 +62,7 @@ Scene MakeDemoScene(const DemoSceneOptions& o) {
         const double core = std::exp(-(rpos * rpos) / (rp * rp));
         p.field_gauss = std::max(p.field_gauss, 2600.0 * core + 400.0 * (1.0 - core) * (rpos < 1.3 * rp));
         p.inclination_deg = 70.0 * std::min(1.0, rpos / (1.3 * rp));
-        p.azimuth_deg = std::fmod(std::atan2(dyp, dxp) * kRadToDeg + 360.0, 180.0);
+        p.azimuth_deg = std::fmod(std::atan2(dyp, dxp) * kRadToDeg + 360.0, 360.0);  // pointing outward
         p.doppler_width_nm = 2.2e-3;  // cooler gas in the concentration
         p.eta0 = 12.0;
         p.vlos_kms = 0.1;
@@ -71,7 +73,10 @@ Scene MakeDemoScene(const DemoSceneOptions& o) {
         const double w = 1.0 - rneg / rn;
         p.field_gauss = 120.0 + 380.0 * w;
         p.inclination_deg = 160.0 - 25.0 * (1.0 - w);
-        p.azimuth_deg = std::fmod(120.0 + 10.0 * w, 180.0);
+        // Orientation 120-130 deg; of its two directions the one pointing toward the patch centre (the
+        // horizontal field of a sink of flux converges).
+        const double a = 120.0 + 10.0 * w, ca = std::cos(a / kRadToDeg), sa = std::sin(a / kRadToDeg);
+        p.azimuth_deg = (ca * (nxc - X) + sa * (nyc - Y) >= 0.0) ? a : a + 180.0;
         p.vlos_kms = -0.2;
       }
       s.primary[i] = p;

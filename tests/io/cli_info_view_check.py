@@ -177,9 +177,9 @@ with tempfile.TemporaryDirectory() as tmp:
     blos = (x - 20.0) * 10.0
     blos[3, 4] = np.nan
     hdus = [fits.PrimaryHDU(),
-            fits.ImageHDU(data=np.hypot(x, y).astype(np.float32), name="FIELD"),
-            fits.ImageHDU(data=blos.astype(np.float32), name="BLOS"),
-            fits.ImageHDU(data=(x * 4.0 % 180).astype(np.float32), name="AZIMUTH")]
+            fits.ImageHDU(data=np.hypot(x, y).astype(np.float32), name="B_TOTAL"),
+            fits.ImageHDU(data=blos.astype(np.float32), name="B_LOS"),
+            fits.ImageHDU(data=(x * 4.0 % 180).astype(np.float32), name="B_AZIM")]
     for hh, unit in zip(hdus[1:], ["G", "G", "deg"]):
         hh.header["BUNIT"] = unit
     fits.HDUList(hdus).writeto(maps)
@@ -188,7 +188,7 @@ with tempfile.TemporaryDirectory() as tmp:
     check(rc == 0, "view exit %d: %s" % (rc, err))
     pngs = out.split()
     names = [os.path.basename(p) for p in pngs]
-    check(names == ["maps_field.png", "maps_blos.png", "maps_azimuth.png", "maps_summary.png"], "view printed %s" % names)
+    check(names == ["maps_b_total.png", "maps_b_los.png", "maps_b_azim.png", "maps_summary.png"], "view printed %s" % names)
     for p in pngs:
         with Image.open(p) as im:
             check(im.format == "PNG" and im.size[0] > 40 and im.size[1] > 30, "%s: %s %s" % (p, im.format, im.size))

@@ -41,7 +41,7 @@ std::vector<ImageHdu> SampleMaps(long nx, long ny) {
     return v;
   };
   maps.push_back(MakeMap(map_names::kField, nx, ny, ramp(12.5, 100.0)));
-  maps.push_back(MakeMap("FIELD_ERR", nx, ny, ramp(0.5, 3.0)));
+  maps.push_back(MakeMap("B_TOTAL_SIGMA", nx, ny, ramp(0.5, 3.0)));
   maps.push_back(MakeMap(map_names::kInclination, nx, ny, ramp(1.0, 10.0)));
   maps.push_back(MakeMap(map_names::kAzimuth, nx, ny, ramp(2.0, 0.0)));
   auto blos = ramp(-25.0, 40.0);
@@ -66,10 +66,10 @@ FitsWriteOptions SampleOptions() {
 }
 
 TEST(FieldMapWriter, StandardUnitsFollowTheConventions) {
-  EXPECT_EQ(StandardMapUnit("FIELD"), "G");
-  EXPECT_EQ(StandardMapUnit("BLOS_ERR"), "G");
-  EXPECT_EQ(StandardMapUnit("AZIMUTH"), "deg");
-  EXPECT_EQ(StandardMapUnit("VLOS"), "km/s");
+  EXPECT_EQ(StandardMapUnit("B_TOTAL"), "G");
+  EXPECT_EQ(StandardMapUnit("B_LOS_SIGMA"), "G");
+  EXPECT_EQ(StandardMapUnit("B_AZIM"), "deg");
+  EXPECT_EQ(StandardMapUnit("V_LOS"), "km/s");
   EXPECT_EQ(StandardMapUnit("QUALITY"), "");
 }
 
@@ -117,7 +117,7 @@ TEST(FieldMapWriter, StokesCubeRoundTripsThroughTheReaderAndPassesFitsverify) {
   data.values.resize(static_cast<std::size_t>(nx * ny * 2 * nw));
   for (std::size_t i = 0; i < data.values.size(); ++i) data.values[i] = static_cast<float>(i) * 0.5f - 3.0f;
   const std::string wcs = MakeHelioprojectiveWcs(nx, ny, 0.16, 100.0, -200.0);
-  std::vector<ImageHdu> truth = {MakeMap("FIELD", nx, ny, std::vector<double>(nx * ny, 1500.0))};
+  std::vector<ImageHdu> truth = {MakeMap("B_TOTAL", nx, ny, std::vector<double>(nx * ny, 1500.0))};
   const std::string path = dir.File("synth.fits");
   WriteStokesCube(path, data, grid, WavelengthFrame::kAir, wcs, truth, SampleOptions());
   ExpectFitsverifyClean(path);
@@ -137,7 +137,7 @@ TEST(FieldMapWriter, StokesCubeRoundTripsThroughTheReaderAndPassesFitsverify) {
 
   const auto extras = ReadImageHdus(path);
   ASSERT_EQ(extras.size(), 1u);
-  EXPECT_EQ(extras[0].extname, "FIELD");
+  EXPECT_EQ(extras[0].extname, "B_TOTAL");
   EXPECT_EQ(extras[0].wcs_header, wcs);
 }
 
@@ -166,7 +166,7 @@ TEST(FieldMapWriter, AstropyReadsTheSameNamesUnitsAndWorldCoordinates) {
   data.values = tile.data;
   const std::string stokes_path = dir.File("stokes.fits");
   WriteStokesCube(stokes_path, data, info.wavelength_nm, info.frame, info.spatial_wcs_header,
-                  {MakeMap("BLOS", info.nx, info.ny, std::vector<double>(info.nx * info.ny, 5.0))}, {});
+                  {MakeMap("B_LOS", info.nx, info.ny, std::vector<double>(info.nx * info.ny, 5.0))}, {});
 
   std::string names;
   for (const auto& m : maps) names += (names.empty() ? "" : ",") + m.extname + ":" + m.bunit;
@@ -185,7 +185,7 @@ TEST(FieldMapWriter, RefusesToOverwriteUnlessAskedAndLeavesNoTemporaryFiles) {
   WriteFieldMaps(path, maps, "", {});
   const auto size_before = std::filesystem::file_size(path);
   try {
-    WriteFieldMaps(path, {MakeMap("FIELD", 1, 1, {1.0})}, "", {});
+    WriteFieldMaps(path, {MakeMap("B_TOTAL", 1, 1, {1.0})}, "", {});
     FAIL() << "overwrote silently";
   } catch (const FitsError& e) {
     EXPECT_NE(std::string(e.what()).find(path), std::string::npos);
@@ -194,7 +194,7 @@ TEST(FieldMapWriter, RefusesToOverwriteUnlessAskedAndLeavesNoTemporaryFiles) {
   EXPECT_EQ(std::filesystem::file_size(path), size_before);
   FitsWriteOptions o;
   o.overwrite = true;
-  WriteFieldMaps(path, {MakeMap("FIELD", 1, 1, {1.0})}, "", o);
+  WriteFieldMaps(path, {MakeMap("B_TOTAL", 1, 1, {1.0})}, "", o);
   EXPECT_EQ(ReadImageHdus(path).size(), 1u);
   int files = 0;
   for (const auto& e : std::filesystem::directory_iterator(dir.path())) {
@@ -207,11 +207,11 @@ TEST(FieldMapWriter, RefusesToOverwriteUnlessAskedAndLeavesNoTemporaryFiles) {
 TEST(FieldMapWriter, BadMapsAreRejectedBeforeAnyFileIsCreated) {
   TempDir dir;
   const std::string path = dir.File("maps.fits");
-  ImageHdu wrong = MakeMap("FIELD", 3, 3, std::vector<double>(8, 0.0));
+  ImageHdu wrong = MakeMap("B_TOTAL", 3, 3, std::vector<double>(8, 0.0));
   EXPECT_THROW(WriteFieldMaps(path, {wrong}, "", {}), FitsError);
   ImageHdu lower = MakeMap("field", 1, 1, {0.0});
   EXPECT_THROW(WriteFieldMaps(path, {lower}, "", {}), FitsError);
-  EXPECT_THROW(WriteFieldMaps(path, {MakeMap("BLOS", 1, 1, {0.0}), MakeMap("BLOS", 1, 1, {0.0})}, "", {}), FitsError);
+  EXPECT_THROW(WriteFieldMaps(path, {MakeMap("B_LOS", 1, 1, {0.0}), MakeMap("B_LOS", 1, 1, {0.0})}, "", {}), FitsError);
   ImageHdu q = MakeMap("QUALITY", 1, 1, {0.5});  // not an integer: fails while writing
   EXPECT_THROW(WriteFieldMaps(path, {q}, "", {}), FitsError);
   EXPECT_FALSE(std::filesystem::exists(path));

@@ -70,25 +70,25 @@ TEST(Quicklook, PercentileFollowsNumpyLinearDefinition) {
 }
 
 TEST(Quicklook, DivergingLimitsAreSymmetricAndAngleLimitsFixed) {
-  ImageHdu blos = MakeMap("BLOS", 4, 1, {-10.0, 0.0, 50.0, 100.0});
+  ImageHdu blos = MakeMap("B_LOS", 4, 1, {-10.0, 0.0, 50.0, 100.0});
   QuicklookOptions o;
   o.lower_percentile = 0;
   o.upper_percentile = 100;
   const auto lim = ColourLimits(QuicklookFromHdu(blos), o);
   EXPECT_EQ(lim[0], -100.0);
   EXPECT_EQ(lim[1], 100.0);
-  const auto az = ColourLimits(QuicklookFromHdu(MakeMap("AZIMUTH", 1, 1, {3.0})), o);
+  const auto az = ColourLimits(QuicklookFromHdu(MakeMap("B_AZIM", 1, 1, {3.0})), o);
   EXPECT_EQ(az[0], 0.0);
   EXPECT_EQ(az[1], 180.0);
-  EXPECT_EQ(DefaultColourMap("AZIMUTH"), ColourMapKind::kCyclic);
-  EXPECT_EQ(DefaultColourMap("VLOS"), ColourMapKind::kDiverging);
-  EXPECT_EQ(DefaultColourMap("FIELD"), ColourMapKind::kSequential);
+  EXPECT_EQ(DefaultColourMap("B_AZIM"), ColourMapKind::kCyclic);
+  EXPECT_EQ(DefaultColourMap("V_LOS"), ColourMapKind::kDiverging);
+  EXPECT_EQ(DefaultColourMap("B_TOTAL"), ColourMapKind::kSequential);
 }
 
 TEST(Quicklook, PngShowsNanAsGreyAndTopValueWithTheTopColour) {
   test::TempDir dir;
   // 2 x 2 map: (x=0,y=0) NaN, others increasing; integer zoom 100 with panel 200 px.
-  QuicklookMap m = QuicklookFromHdu(MakeMap("FIELD", 2, 2, {std::nan(""), 1.0, 2.0, 3.0}));
+  QuicklookMap m = QuicklookFromHdu(MakeMap("B_TOTAL", 2, 2, {std::nan(""), 1.0, 2.0, 3.0}));
   QuicklookOptions o;
   o.panel_size_px = 200;
   o.lower_percentile = 0;

@@ -17,8 +17,8 @@ namespace zeeline {
 namespace {
 
 constexpr long kN = 64;                  // map size (pixels)
-constexpr double kSuccessFraction = 0.95;  // the brief: >= 95 % of pixels with BTRANS above noise
-constexpr double kNoise_gauss = 5.0;     // BTRANS error given to the disambiguator
+constexpr double kSuccessFraction = 0.95;  // the brief: >= 95 % of pixels with B_TRANS above noise
+constexpr double kNoise_gauss = 5.0;     // B_TRANS error given to the disambiguator
 constexpr double kRadToDeg = 180.0 / constants::kPi;
 
 struct Source {
@@ -107,7 +107,7 @@ TEST(Disambiguation, AcuteAngleRecoversTheAzimuthOfAPotentialBipole) {
   }
   ASSERT_GT(strong, kN * kN / 4);
   const double fraction = static_cast<double>(right) / static_cast<double>(strong);
-  std::printf("  disambiguation success: %.4f of %ld pixels with BTRANS > 3 sigma\n", fraction, strong);
+  std::printf("  disambiguation success: %.4f of %ld pixels with B_TRANS > 3 sigma\n", fraction, strong);
   EXPECT_GE(fraction, kSuccessFraction);
 }
 
@@ -136,7 +136,7 @@ TEST(Disambiguation, BadInputsAreRefused) {
   EXPECT_THROW(DisambiguateAzimuth(4, 4, m, m, m, az, flags, o), OptionError);
   o = {};
   o.min_btrans_sigma = -1.0;
-  EXPECT_NE(o.Validate().find("min BTRANS sigma"), std::string::npos);
+  EXPECT_NE(o.Validate().find("min B_TRANS sigma"), std::string::npos);
   std::vector<double> bx, by;
   EXPECT_THROW(PotentialTransverseField(1, 4, std::vector<double>(4, 0.0), bx, by), OptionError);
 }

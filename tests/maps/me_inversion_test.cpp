@@ -453,10 +453,10 @@ TEST(MeInversionOptions, BadValuesAreNamed) {
   };
   MeInversionOptions o;
   o.lower[0] = 7000.0;  // above upper
-  expect(o, "field_gauss");
+  expect(o, "b_total_gauss");
   o = {};
   o.upper[1] = 200.0;
-  expect(o, "inclination_deg");
+  expect(o, "b_incl_deg");
   o = {};
   o.lower[4] = 0.0;
   expect(o, "doppler_width_nm");
@@ -491,9 +491,16 @@ TEST(MeInversionOptions, BadValuesAreNamed) {
 
 TEST(MeInversionOptions, ParameterNamesParseWithAndWithoutUnits) {
   EXPECT_EQ(MeParamFromName("fill"), MeParam::kFill);
-  EXPECT_EQ(MeParamFromName("field_gauss"), MeParam::kField);
+  EXPECT_EQ(MeParamFromName("b_total_gauss"), MeParam::kField);
+  EXPECT_EQ(MeParamFromName("b_total"), MeParam::kField);
+  EXPECT_EQ(MeParamFromName("b_incl"), MeParam::kInclination);
+  EXPECT_EQ(MeParamFromName("b_azim_deg"), MeParam::kAzimuth);
+  EXPECT_EQ(MeParamFromName("v_los"), MeParam::kVlos);
   EXPECT_EQ(MeParamFromName("doppler_width"), MeParam::kDopplerWidth);
   EXPECT_THROW(MeParamFromName("temperature"), OptionError);
+  // The former names are gone (no aliases): the map names are the one vocabulary.
+  for (const char* old : {"field", "field_gauss", "inclination", "azimuth", "vlos", "vlos_kms"})
+    EXPECT_THROW(MeParamFromName(old), OptionError) << old;
 }
 
 }  // namespace

@@ -1,7 +1,7 @@
 // Weak-field B_LOS on Milne–Eddington spectra (src/synth): the reported uncertainty is calibrated.
 // Over 300 noise realisations (noise 1e-3 of the continuum, measured per spectrum from the continuum
 // samples as the map runner does) the pull (estimate - truth)/sigma has a standard deviation within
-// 0.8-1.25 (the requirement for WFA BLOS maps) and a mean within +-0.25.
+// 0.8-1.25 (the requirement for WFA B_LOS maps) and a mean within +-0.25.
 // The ME line (Fe I 630.25 nm, eta0 = 9, damping 0.15, 40 G at 30 deg) is saturated, which the weak-field
 // relation V = -C g_eff B_LOS dI/dl tolerates at first order (LL04 sect. 9.6).
 #include <cmath>

@@ -18,9 +18,9 @@ from astropy.io import fits
 from scipy.special import wofz
 
 LAMBDA0 = 643.847     # nm, Cd I 1P1 - 1D2 (normal triplet, g_eff = 1)
-FIELD = 8000.0        # G
-INCL = 60.0           # deg: BLOS = 4000 G
-VLOS = 0.8            # km/s (redshift)
+B_TOTAL = 8000.0        # G
+INCL = 60.0           # deg: B_LOS = 4000 G
+V_LOS = 0.8            # km/s (redshift)
 DOPPLER = 0.0006      # nm
 INSTR = 0.002         # nm FWHM
 AREA, BG, NOISE = 2.0, 10.0, 2.0
@@ -28,8 +28,8 @@ C_KMS = 299792.458
 
 
 def make(wl):
-    dlb = 4.6686e-13 * (LAMBDA0 * 10) ** 2 * FIELD * 0.1
-    lc = LAMBDA0 * (1 + VLOS / C_KMS)
+    dlb = 4.6686e-13 * (LAMBDA0 * 10) ** 2 * B_TOTAL * 0.1
+    lc = LAMBDA0 * (1 + V_LOS / C_KMS)
     wi = INSTR / (2 * np.sqrt(np.log(2)))
     wp = np.hypot(DOPPLER, wi)
 
@@ -85,29 +85,29 @@ def main():
             fa, fb = a["components"]["field_gauss"], b["components"]["field_gauss"]
             # The grids differ only by rounding in the WCS nm -> m -> nm conversion (~1e-15 relative).
             check(abs(fa - fb) <= 1e-5 * fa, f"table and FITS give the same split field ({fa} vs {fb})")
-            check(abs(a["estimates"]["cog"]["blos_gauss"] - b["estimates"]["cog"]["blos_gauss"]) < 1e-6 * FIELD,
-                  "table and FITS give the same COG BLOS")
+            check(abs(a["estimates"]["cog"]["blos_gauss"] - b["estimates"]["cog"]["blos_gauss"]) < 1e-6 * B_TOTAL,
+                  "table and FITS give the same COG B_LOS")
             check(b["input"]["frame"] == "air" and a["input"]["frame"] is None, "frame from CTYPE1 (FITS) only")
             c = a["components"]
-            check(abs(c["field_gauss"] - FIELD) < 3 * c["field_err_gauss"],
-                  f"split field {c['field_gauss']:.1f} +- {c['field_err_gauss']:.1f} G vs injected {FIELD} (3 sigma)")
-            check(abs(c["vlos_kms"] - VLOS) < 3 * c["vlos_err_kms"],
-                  f"component vlos {c['vlos_kms']:.3f} +- {c['vlos_err_kms']:.3f} vs injected {VLOS} (3 sigma)")
+            check(abs(c["field_gauss"] - B_TOTAL) < 3 * c["field_err_gauss"],
+                  f"split field {c['field_gauss']:.1f} +- {c['field_err_gauss']:.1f} G vs injected {B_TOTAL} (3 sigma)")
+            check(abs(c["vlos_kms"] - V_LOS) < 3 * c["vlos_err_kms"],
+                  f"component vlos {c['vlos_kms']:.3f} +- {c['vlos_err_kms']:.3f} vs injected {V_LOS} (3 sigma)")
             groups = {g["label"]: g for g in c["groups"]}
-            shift = LAMBDA0 * VLOS / C_KMS
+            shift = LAMBDA0 * V_LOS / C_KMS
             for label, off in (("sigma_b", -dlb), ("pi", 0.0), ("sigma_r", dlb)):
                 g = groups[label]
                 check(abs(g["offset_nm"] - shift - off) < 3 * g["position_err_nm"],
                       f"{label} at {g['offset_nm']:.6f} nm, textbook {shift + off:.6f} nm (3 sigma)")
             check(c["resolved"] and a["estimates"]["split"]["valid"], "split valid (resolved)")
             cog = a["estimates"]["cog"]
-            blos = FIELD * np.cos(np.radians(INCL))
+            blos = B_TOTAL * np.cos(np.radians(INCL))
             check(abs(cog["blos_gauss"] - blos) < 3 * cog["blos_err_gauss"],
-                  f"COG BLOS {cog['blos_gauss']:.0f} +- {cog['blos_err_gauss']:.0f} vs B cos(g) = {blos:.0f}")
+                  f"COG B_LOS {cog['blos_gauss']:.0f} +- {cog['blos_err_gauss']:.0f} vs B cos(g) = {blos:.0f}")
             check(not a["estimates"]["wfa"]["valid"], "wfa flagged outside validity for a resolved triplet")
             ch = a["characteristics"]
             check(ch["v_blue_amplitude"] < 0, "emission, field toward observer: V < 0 in the blue wing")
-            check(abs(ch["zero_crossing_vlos_kms"] - VLOS) < 3 * ch["zero_crossing_vlos_err_kms"],
+            check(abs(ch["zero_crossing_vlos_kms"] - V_LOS) < 3 * ch["zero_crossing_vlos_err_kms"],
                   f"V zero crossing {ch['zero_crossing_vlos_kms']:.2f} +- {ch['zero_crossing_vlos_err_kms']:.2f} km/s")
             check(a["sense"] == "emission", "emission detected")
 

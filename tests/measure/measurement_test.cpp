@@ -13,7 +13,7 @@ namespace {
 
 constexpr double kRest = 630.2494;
 constexpr double kSigmas = 3.0;
-// The weak-field BLOS of a saturated ME line is biased by a few per cent even in weak fields (the
+// The weak-field B_LOS of a saturated ME line is biased by a few per cent even in weak fields (the
 // derivative relation is first order; LL04 sect. 9.6): allowed bias for the 200 G case.
 constexpr double kWfaBiasRel = 0.05;
 
@@ -67,7 +67,7 @@ TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
   EXPECT_TRUE(m.split.valid) << m.split.verdict;
   // The component fit of a saturated line is not exact (ME profiles are not Voigt sums): 3 % of B.
   EXPECT_NEAR(m.split.field_gauss.value, p.field_gauss, kSigmas * m.split.field_gauss.err + 0.03 * p.field_gauss);
-  // COG holds at any strength: BLOS = B cos(gamma) (Rees & Semel 1979). (For inclined fields in
+  // COG holds at any strength: B_LOS = B cos(gamma) (Rees & Semel 1979). (For inclined fields in
   // saturated lines the pi component leaks into I +- V and biases it; not tested here.)
   const double blos = p.field_gauss * std::cos(p.inclination_deg * M_PI / 180.0);
   EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err + 0.01 * blos);
@@ -91,7 +91,7 @@ TEST(Measurement, LampEmissionIsDetectedAndMeasured) {
   EXPECT_EQ(m.sense, LineSense::kEmission);
   EXPECT_TRUE(m.split.valid);
   EXPECT_NEAR(m.split.field_gauss.value, t.field_gauss, kSigmas * m.split.field_gauss.err);
-  // Emission, field toward the observer: V < 0 in the blue wing (docs/conventions.md); COG BLOS = B cos g.
+  // Emission, field toward the observer: V < 0 in the blue wing (docs/conventions.md); COG B_LOS = B cos g.
   EXPECT_LT(m.characteristics.v_blue_amplitude.value, 0.0);
   const double blos = t.field_gauss * std::cos(t.inclination_deg * M_PI / 180.0);
   EXPECT_NEAR(m.cog.blos_gauss.value, blos, kSigmas * m.cog.blos_gauss.err);

@@ -377,7 +377,7 @@ TEST(UnnoRachkovsky, ValidationNamesTheBadFieldAndValue) {
   EXPECT_NE(p.Validate().find("doppler_width_nm"), std::string::npos);
   p = MeParameters{};
   p.inclination_deg = 200.0;
-  EXPECT_NE(p.Validate().find("inclination_deg = 200"), std::string::npos);
+  EXPECT_NE(p.Validate().find("b_incl_deg = 200"), std::string::npos);
   MeOptions o;
   o.mu = 0.0;
   EXPECT_NE(o.Validate().find("mu = 0"), std::string::npos);
@@ -395,7 +395,8 @@ TEST(UnnoRachkovsky, ParameterNamesAndAccessorsAgree) {
     p.Set(which, 0.125 * (k + 1));
     EXPECT_EQ(p.Get(which), 0.125 * (k + 1)) << MeParamName(which);
   }
-  EXPECT_STREQ(MeParamName(MeParam::kField), "field_gauss");
+  EXPECT_STREQ(MeParamName(MeParam::kField), "b_total_gauss");
+  EXPECT_STREQ(MeParamName(MeParam::kVlos), "v_los_kms");
   EXPECT_STREQ(MeParamName(MeParam::kFill), "fill");
 }
 

@@ -4,8 +4,8 @@
 //   HDU 1  primary, no data (NAXIS = 0), provenance keywords: CREATOR (tool and ZEELINE_VERSION),
 //          DATE (UTC, written by cfitsio), ZLMETHOD, ZLLINE, ZLINPUT, ZLCMD (long strings use the FITS
 //          4.0 CONTINUE convention), HISTORY lines, caller-supplied keywords.
-//   HDU 2+ one 2-D image per map, EXTNAME = FIELD, INCLINATION, AZIMUTH, BLOS, BTRANS, VLOS, CHI2,
-//          METHOD, <NAME>_ERR for uncertainties, QUALITY (int32 bit flags, io/quality_flags.hpp) or any
+//   HDU 2+ one 2-D image per map, EXTNAME = B_TOTAL, B_INCL, B_AZIM, B_LOS, B_TRANS, V_LOS, CHI2,
+//          METHOD, <NAME>_SIGMA for uncertainties, QUALITY (int32 bit flags, io/quality_flags.hpp) or any
 //          other name; BUNIT per map ('G', 'deg', 'km/s'); the spatial WCS of the input cube (cards
 //          from CubeInfo::spatial_wcs_header: wcslib wcssub + wcshdo) on every map.
 // Stokes-cube layout (WriteStokesCube): primary HDU = 4-D float32 cube with NAXIS1 = x, NAXIS2 = y,
@@ -29,20 +29,20 @@ namespace zeeline {
 
 /// Standard map names (EXTNAME) and their units (BUNIT).
 namespace map_names {
-inline constexpr const char* kField = "FIELD";              // G, |B|
-inline constexpr const char* kInclination = "INCLINATION";  // deg, 0 = toward the observer
-inline constexpr const char* kAzimuth = "AZIMUTH";          // deg, [0, 180), from +x toward +y
-inline constexpr const char* kBlos = "BLOS";                // G, positive toward the observer
-inline constexpr const char* kBtrans = "BTRANS";            // G, >= 0
-inline constexpr const char* kVlos = "VLOS";                // km/s, positive = redshift
-inline constexpr const char* kChi2 = "CHI2";                // dimensionless
-inline constexpr const char* kMethod = "METHOD";            // integer code of the method used per pixel
-inline constexpr const char* kQuality = "QUALITY";          // int32 bit flags
-inline constexpr const char* kErrorSuffix = "_ERR";         // FIELD_ERR etc., same unit as the map
+inline constexpr const char* kField = "B_TOTAL";       // G, |B|
+inline constexpr const char* kInclination = "B_INCL";  // deg, 0 = toward the observer
+inline constexpr const char* kAzimuth = "B_AZIM";      // deg, [0, 180), from +x toward +y
+inline constexpr const char* kBlos = "B_LOS";          // G, positive toward the observer
+inline constexpr const char* kBtrans = "B_TRANS";      // G, >= 0
+inline constexpr const char* kVlos = "V_LOS";          // km/s, positive = redshift
+inline constexpr const char* kChi2 = "CHI2";           // dimensionless
+inline constexpr const char* kMethod = "METHOD";       // integer code of the method used per pixel
+inline constexpr const char* kQuality = "QUALITY";     // int32 bit flags
+inline constexpr const char* kErrorSuffix = "_SIGMA";  // B_TOTAL_SIGMA etc., same unit as the map
 }  // namespace map_names
 
 /// BUNIT of a standard map name ("G", "deg", "km/s"; "" for CHI2, METHOD, QUALITY and unknown names).
-/// NAME_ERR gets the unit of NAME.
+/// NAME_SIGMA gets the unit of NAME.
 std::string StandardMapUnit(const std::string& extname);
 
 enum class FitsPixelType { kFloat32, kFloat64, kInt16, kInt32 };
@@ -103,7 +103,7 @@ struct StokesCubeData {
 };
 
 /// Writes a 4-D Stokes cube (primary HDU, layout in the header comment) plus `extra_hdus` (e.g. truth
-/// maps FIELD, INCLINATION, ...). `wavelength_nm` must be uniform (to 1e-6 of the step) and strictly
+/// maps B_TOTAL, B_INCL, ...). `wavelength_nm` must be uniform (to 1e-6 of the step) and strictly
 /// increasing; `frame` selects CTYPE3 'AWAV' (air) or 'WAVE' (vacuum).
 void WriteStokesCube(const std::string& path, const StokesCubeData& data, const std::vector<double>& wavelength_nm,
                      WavelengthFrame frame, const std::string& spatial_wcs_header,

@@ -3,18 +3,18 @@
 // several panels. North-up convention of FITS viewers: y increases upward.
 //
 // Colour maps (docs/fits.md, "Quicklook colour maps"):
-//  * diverging (signed quantities: BLOS, VLOS; INCLINATION around 90 deg): Moreland (2009), "Diverging
+//  * diverging (signed quantities: B_LOS, V_LOS; B_INCL around 90 deg): Moreland (2009), "Diverging
 //    Color Maps for Scientific Visualization", ISVC 2009, LNCS 5876, 92: interpolation in the Msh
 //    (polar CIELAB) space between cool (59, 76, 192) and warm (180, 4, 38) through a white-ish point
 //    M = max(M1, M2, 88); CIELAB with the D65 white (0.9505, 1, 1.089) and sRGB (IEC 61966-2-1).
-//  * sequential (magnitudes: FIELD, BTRANS, CHI2, *_ERR, QUALITY): cubehelix, Green (2011), Bull. Astr.
+//  * sequential (magnitudes: B_TOTAL, B_TRANS, CHI2, *_SIGMA, QUALITY): cubehelix, Green (2011), Bull. Astr.
 //    Soc. India 39, 289, eq. 2, with start = 0.3, rotations = -0.9, hue = 1.4, gamma = 1 over fraction
 //    0.08 .. 0.92 (dark violet -> teal -> green -> pale yellow; brightness rises monotonically).
-//  * cyclic (AZIMUTH, 180 deg period): constant lightness and chroma circle in CIELAB, L* = 65,
+//  * cyclic (B_AZIM, 180 deg period): constant lightness and chroma circle in CIELAB, L* = 65,
 //    C* = 35 (inside the sRGB gamut for every hue), hue angle = 2 pi t + 0.6 rad.
 //  NaN / Inf pixels are drawn neutral grey (128, 128, 128).
 // Colour limits: robust percentiles of the finite values (numpy "linear" definition), symmetric about
-// the centre for diverging maps; fixed 0..180 deg for AZIMUTH and INCLINATION.
+// the centre for diverging maps; fixed 0..180 deg for B_AZIM and B_INCL.
 // Errors: FitsError naming the PNG file (cannot write, would overwrite).
 #pragma once
 
@@ -35,7 +35,7 @@ std::string ToString(ColourMapKind kind);
 /// sRGB colour of fraction t in [0, 1] (clamped), components 0..255.
 std::array<unsigned char, 3> ColourAt(ColourMapKind kind, double t);
 
-/// Colour map used for a map name (BLOS -> diverging, AZIMUTH -> cyclic, ...).
+/// Colour map used for a map name (B_LOS -> diverging, B_AZIM -> cyclic, ...).
 ColourMapKind DefaultColourMap(const std::string& extname);
 
 /// Percentile p (0..100) of the finite values, linear interpolation between order statistics
@@ -56,7 +56,7 @@ struct QuicklookOptions {
 
 /// One picture's content.
 struct QuicklookMap {
-  std::string title;  ///< e.g. "BLOS"
+  std::string title;  ///< e.g. "B_LOS"
   std::string unit;   ///< e.g. "G" (shown as "[G]")
   long nx = 0, ny = 0;
   std::vector<double> values;  ///< values[y * nx + x]

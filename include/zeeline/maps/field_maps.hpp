@@ -2,10 +2,10 @@
 // tiles, threads, checkpoints.
 //
 // For every spatial pixel the cube's spectra go through the estimators of this area:
-//   wfa    weak-field approximation (weak_field.hpp): BLOS, BTRANS, AZIMUTH (+ VLOS from the centroid)
-//   cog    centre of gravity (centre_of_gravity.hpp): BLOS, VLOS
-//   split  resolved splitting (full_splitting.hpp): FIELD, VLOS; BLOS from cog; INCLINATION from both;
-//          AZIMUTH from the linear-polarisation regression of the weak-field fit (angle only)
+//   wfa    weak-field approximation (weak_field.hpp): B_LOS, B_TRANS, B_AZIM (+ V_LOS from the centroid)
+//   cog    centre of gravity (centre_of_gravity.hpp): B_LOS, V_LOS
+//   split  resolved splitting (full_splitting.hpp): B_TOTAL, V_LOS; B_LOS from cog; B_INCL from both;
+//          B_AZIM from the linear-polarisation regression of the weak-field fit (angle only)
 //   me     Milne-Eddington inversion (me_inversion.hpp) of I, Q, U, V over the whole spectral axis, started
 //          from the wfa/cog estimates; all maps with errors from the covariance, CHI2 = reduced chi2;
 //          QUALITY NOT_CONVERGED / BAD_FIT from the fit. Extra lines (extra_lines) share B, angles, vlos and
@@ -14,14 +14,14 @@
 //          w the 1/e half-width of the line (from the second moment of the absorption). r < weak_ratio
 //          (default 0.3) -> wfa; otherwise, when the cube has Q, U and V and auto_me is set (the default),
 //          me (started from the splitting fit's |B| when that is resolved); without them, split if the
-//          sigma groups are resolved, else cog for BLOS/VLOS with the weak-field transverse field flagged
+//          sigma groups are resolved, else cog for B_LOS/V_LOS with the weak-field transverse field flagged
 //          OUT_OF_RANGE.
-// Disambiguation (disambiguate = true, disambiguation.hpp): after all pixels, the AZIMUTH map is turned into
-// [0, 360) by the acute-angle rule against the potential field of BLOS, and FieldMaps::disambiguation holds
-// a flag per pixel (DisambiguationFlag). Without it AZIMUTH is in [0, 180).
+// Disambiguation (disambiguate = true, disambiguation.hpp): after all pixels, the B_AZIM map is turned into
+// [0, 360) by the acute-angle rule against the potential field of B_LOS, and FieldMaps::disambiguation holds
+// a flag per pixel (DisambiguationFlag). Without it B_AZIM is in [0, 180).
 // Every pixel gets a METHOD code (map_method.hpp) and QUALITY bits (io/quality_flags.hpp): a pixel with
-// NaN/Inf input gets NaN maps and NONFINITE_INPUT, and its neighbours are untouched; a pixel whose |BLOS|
-// and BTRANS are both below detection_sigma times their errors gets LOW_SIGNAL; an estimate outside its
+// NaN/Inf input gets NaN maps and NONFINITE_INPUT, and its neighbours are untouched; a pixel whose |B_LOS|
+// and B_TRANS are both below detection_sigma times their errors gets LOW_SIGNAL; an estimate outside its
 // method's validity gets OUT_OF_RANGE.
 // The cube is read tile by tile (io/cube_reader.hpp), so memory holds one tile plus the 2-D maps.
 // Checkpoints: after every tile the finished rows can be saved (checkpoint_path) and a later run with
@@ -62,7 +62,7 @@ enum MapSlot : int {
   kSlotChi2,
   kSlotCount
 };
-/// EXTNAME of a slot ("FIELD", "FIELD_ERR", ...).
+/// EXTNAME of a slot ("B_TOTAL", "B_TOTAL_SIGMA", ...).
 const char* MapSlotName(int slot);
 
 struct FieldMapOptions {
@@ -77,8 +77,8 @@ struct FieldMapOptions {
   double wing_start_nm = 0.0;        ///< weak-field transverse wing region start
   double weak_ratio = 0.15;          ///< splitting/width below which the weak-field answer is used (auto) / valid (wfa)
   double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
-  double detection_sigma = 3.0;      ///< LOW_SIGNAL below this many sigma in both BLOS and BTRANS
-  bool need_transverse = false;      ///< refuse cubes without Q and U (the caller asked for BTRANS)
+  double detection_sigma = 3.0;      ///< LOW_SIGNAL below this many sigma in both B_LOS and B_TRANS
+  bool need_transverse = false;      ///< refuse cubes without Q and U (the caller asked for B_TRANS)
   int threads = 0;                   ///< 0 = all available (OpenMP)
   // Milne-Eddington inversion (method me, and auto in the intermediate regime).
   MeInversionOptions me;             ///< free/fixed parameters, bounds, Stokes weights, restarts, tolerances

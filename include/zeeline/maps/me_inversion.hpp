@@ -44,7 +44,7 @@
 // unscaled otherwise (noise levels are measured, not fitted). Directions of H with eigenvalue below
 // 1e-13 of the largest (e.g. the azimuth when B = 0) give an infinite sigma. The reduced chi2 is the
 // unweighted chi2 / (N - n_free), N = samples of the Stokes parameters present.
-// Derived: BLOS = B cos(gamma), BTRANS = B sin(gamma) with first-order errors using the (B, gamma)
+// Derived: B_LOS = B cos(gamma), B_TRANS = B sin(gamma) with first-order errors using the (B, gamma)
 // covariance.
 //
 // Multi-line fits: every MeLine of the window enters one model; each line's relative_strength (its eta0

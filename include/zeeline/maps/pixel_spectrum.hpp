@@ -2,7 +2,7 @@
 // continuum/noise helpers every estimator shares.
 //
 // Spectra are non-owning views (pointer + length) so the estimators run straight on a tile's buffer
-// without copies. Q, U, V may be null when the cube lacks them (an I+V cube still gives BLOS).
+// without copies. Q, U, V may be null when the cube lacks them (an I+V cube still gives B_LOS).
 // The continuum level Ic is the mean of I over the continuum samples; the noise of each Stokes
 // parameter comes from second differences of consecutive continuum samples,
 //   sigma^2 = < (f[i-1] - 2 f[i] + f[i+1])^2 > / 6,

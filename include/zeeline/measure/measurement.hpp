@@ -11,17 +11,17 @@
 // Emission or absorption: the larger of max(I - Ic) and max(Ic - I) in the window, unless forced.
 //
 // Estimates and verdicts (r = |g_eff| Delta lambda_B(B*) / w, with w the observed 1/e half-width of one
-// component from the fit and B* the largest of the weak-field |B|, a significant (3 sigma) COG |BLOS| and
+// component from the fit and B* the largest of the weak-field |B|, a significant (3 sigma) COG |B_LOS| and
 // a resolved split field):
-//   wfa    weak_field.hpp: BLOS (needs V), BTRANS and azimuth (need Q, U and G != 0); valid when
+//   wfa    weak_field.hpp: B_LOS (needs V), B_TRANS and azimuth (need Q, U and G != 0); valid when
 //          r < weak_ratio (default 0.3; LL04 sect. 9.6 asks g_eff Delta lambda_B << Delta lambda_D).
-//   cog    centre_of_gravity.hpp: BLOS and VLOS (needs V); valid at any field strength (Rees & Semel
+//   cog    centre_of_gravity.hpp: B_LOS and V_LOS (needs V); valid at any field strength (Rees & Semel
 //          1979), exact for a normal triplet and approximate for anomalous patterns (Uitenbroek 2003).
-//   split  the Zeeman component fit: |B| and VLOS; valid when the sigma groups are resolved.
-//   split_3gauss  full_splitting.hpp (the estimator `zeeline map --method split` uses): |B|, VLOS; valid
+//   split  the Zeeman component fit: |B| and V_LOS; valid when the sigma groups are resolved.
+//   split_3gauss  full_splitting.hpp (the estimator `zeeline map --method split` uses): |B|, V_LOS; valid
 //          when its sigma groups are resolved.
 //   me     maps/me_inversion.hpp, a Milne-Eddington inversion of all Stokes parameters present, started
-//          from the cheaper estimates: B, inclination, azimuth, BLOS, BTRANS, VLOS; absorption lines with
+//          from the cheaper estimates: B, inclination, azimuth, B_LOS, B_TRANS, V_LOS; absorption lines with
 //          a known pattern only; valid when it converged with reduced chi2 below the inverter's bad-fit
 //          level. The ME model has no instrument profile: with --instrument-fwhm the verdict says so.
 #pragma once

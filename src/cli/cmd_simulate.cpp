@@ -1,4 +1,4 @@
-// `zeeline synth`: a synthetic Stokes cube (with WCS and truth maps) from the demo scene or from maps of
+// `zeeline simulate`: a synthetic Stokes cube (with WCS and truth maps) from the demo scene or from maps of
 // Milne–Eddington parameters. A thin layer over synth/scene.hpp and io/field_map_writer.hpp.
 #include <cmath>
 #include <cstdio>
@@ -18,7 +18,7 @@
 namespace zeeline::cli {
 namespace {
 
-struct SynthArgs {
+struct SimulateArgs {
   bool demo = false;
   std::string params, output, range = "0.06nm", instrument_fwhm;
   LineSelectionArgs line;
@@ -30,7 +30,7 @@ struct SynthArgs {
   std::string command_line;
 };
 
-// Reads a parameter-map file: FIELD, INCLINATION, AZIMUTH, VLOS required; the other MeParameters optional.
+// Reads a parameter-map file: B_TOTAL, B_INCL, B_AZIM, V_LOS required; the other MeParameters optional.
 Scene SceneFromParameterMaps(const std::string& path) {
   const std::vector<ImageHdu> hdus = ReadImageHdus(path);
   std::map<std::string, const ImageHdu*> by_name;
@@ -41,10 +41,10 @@ Scene SceneFromParameterMaps(const std::string& path) {
     bool required;
     const char* unit;
   };
-  const Entry entries[] = {{"FIELD", MeParam::kField, true, "G"},
-                           {"INCLINATION", MeParam::kInclination, true, "deg"},
-                           {"AZIMUTH", MeParam::kAzimuth, true, "deg"},
-                           {"VLOS", MeParam::kVlos, true, "km/s"},
+  const Entry entries[] = {{"B_TOTAL", MeParam::kField, true, "G"},
+                           {"B_INCL", MeParam::kInclination, true, "deg"},
+                           {"B_AZIM", MeParam::kAzimuth, true, "deg"},
+                           {"V_LOS", MeParam::kVlos, true, "km/s"},
                            {"DOPPLER_WIDTH", MeParam::kDopplerWidth, false, "nm"},
                            {"DAMPING", MeParam::kDamping, false, ""},
                            {"ETA0", MeParam::kEta0, false, ""},
@@ -69,7 +69,7 @@ Scene SceneFromParameterMaps(const std::string& path) {
       s.primary.assign(static_cast<std::size_t>(s.nx * s.ny), MeParameters{});
     } else if (h.naxes[0] != s.nx || h.naxes[1] != s.ny) {
       throw FitsError(path + "[" + e.extname + "]: size " + std::to_string(h.naxes[0]) + " x " +
-                      std::to_string(h.naxes[1]) + " differs from FIELD's " + std::to_string(s.nx) + " x " +
+                      std::to_string(h.naxes[1]) + " differs from B_TOTAL's " + std::to_string(s.nx) + " x " +
                       std::to_string(s.ny));
     }
     for (std::size_t i = 0; i < h.values.size(); ++i) {
@@ -82,7 +82,7 @@ Scene SceneFromParameterMaps(const std::string& path) {
   return s;
 }
 
-void RunSynth(const SynthArgs& a) {
+void RunSimulate(const SimulateArgs& a) {
   namespace fs = std::filesystem;
   if (a.demo == !a.params.empty()) throw OptionError("give exactly one of --demo or --params PARAMS.fits");
   if (fs::exists(a.output) && !a.overwrite)
@@ -121,7 +121,10 @@ void RunSynth(const SynthArgs& a) {
   cube.stokes = {StokesParameter::kI, StokesParameter::kQ, StokesParameter::kU, StokesParameter::kV};
   cube.values = SynthesizeScene(scene, {me_line}, grid, so, no);
 
-  // Truth maps of the primary atmosphere (and the weight of two-component pixels).
+  // Truth maps of the primary atmosphere (and the weight of two-component pixels). TRUE_B_AZIM is the
+  // direction of the horizontal field on [0, 360), as a disambiguated B_AZIM map reports it. TRUE_B_LOS is
+  // the weight-averaged line-of-sight field of both components, w B1 cos(g1) + (1 - w) B2 cos(g2): the
+  // flux a weak-field or centre-of-gravity measurement of the mixed pixel sees.
   const std::size_t np = static_cast<std::size_t>(scene.nx * scene.ny);
   auto truth = [&](const char* name, const char* unit, auto f) {
     std::vector<double> v(np);
@@ -131,26 +134,37 @@ void RunSynth(const SynthArgs& a) {
     return h;
   };
   constexpr double kDeg = 3.14159265358979323846 / 180.0;
+  auto blos = [&](const MeParameters& p) { return p.field_gauss * std::cos(p.inclination_deg * kDeg); };
   std::vector<ImageHdu> extra;
-  extra.push_back(truth("TRUE_FIELD", "G", [](const MeParameters& p) { return p.field_gauss; }));
-  extra.push_back(truth("TRUE_INCLINATION", "deg", [](const MeParameters& p) { return p.inclination_deg; }));
-  extra.push_back(truth("TRUE_AZIMUTH", "deg", [](const MeParameters& p) {
-    double a0 = std::fmod(p.azimuth_deg, 180.0);
-    return a0 < 0 ? a0 + 180.0 : a0;
+  extra.push_back(truth("TRUE_B_TOTAL", "G", [](const MeParameters& p) { return p.field_gauss; }));
+  extra.push_back(truth("TRUE_B_INCL", "deg", [](const MeParameters& p) { return p.inclination_deg; }));
+  extra.push_back(truth("TRUE_B_AZIM", "deg", [](const MeParameters& p) {
+    const double a0 = std::fmod(p.azimuth_deg, 360.0);
+    return a0 < 0 ? a0 + 360.0 : a0;
   }));
-  extra.push_back(truth("TRUE_BLOS", "G", [&](const MeParameters& p) { return p.field_gauss * std::cos(p.inclination_deg * kDeg); }));
-  extra.push_back(truth("TRUE_BTRANS", "G", [&](const MeParameters& p) { return p.field_gauss * std::sin(p.inclination_deg * kDeg); }));
-  extra.push_back(truth("TRUE_VLOS", "km/s", [](const MeParameters& p) { return p.vlos_kms; }));
+  {
+    std::vector<double> v(np);
+    for (std::size_t i = 0; i < np; ++i) {
+      const double w = scene.primary_weight.empty() ? 1.0 : scene.primary_weight[i];
+      v[i] = w * blos(scene.primary[i]) + (w < 1.0 ? (1.0 - w) * blos(scene.secondary[i]) : 0.0);
+    }
+    ImageHdu h = MakeMap("TRUE_B_LOS", scene.nx, scene.ny, std::move(v));
+    h.bunit = "G";
+    h.keywords.push_back({"COMMENT", std::string("w B1 cos(g1) + (1 - w) B2 cos(g2), w = TRUE_WEIGHT"), ""});
+    extra.push_back(h);
+  }
+  extra.push_back(truth("TRUE_B_TRANS", "G", [&](const MeParameters& p) { return p.field_gauss * std::sin(p.inclination_deg * kDeg); }));
+  extra.push_back(truth("TRUE_V_LOS", "km/s", [](const MeParameters& p) { return p.vlos_kms; }));
   extra.push_back(truth("TRUE_DOPPLER_WIDTH", "nm", [](const MeParameters& p) { return p.doppler_width_nm; }));
   extra.push_back(truth("TRUE_FILL", "", [](const MeParameters& p) { return p.fill; }));
   if (!scene.primary_weight.empty()) {
     ImageHdu w = MakeMap("TRUE_WEIGHT", scene.nx, scene.ny, scene.primary_weight);
     w.bunit = "";
-    w.keywords.push_back({"COMMENT", std::string("weight of the primary atmosphere; 1 - weight has TRUE_VLOS2"), ""});
+    w.keywords.push_back({"COMMENT", std::string("weight of the primary atmosphere; 1 - weight has TRUE_V_LOS2"), ""});
     extra.push_back(w);
     std::vector<double> v2(np);
     for (std::size_t i = 0; i < np; ++i) v2[i] = scene.secondary[i].vlos_kms;
-    ImageHdu h = MakeMap("TRUE_VLOS2", scene.nx, scene.ny, std::move(v2));
+    ImageHdu h = MakeMap("TRUE_V_LOS2", scene.nx, scene.ny, std::move(v2));
     h.bunit = "km/s";
     extra.push_back(h);
   }
@@ -158,7 +172,7 @@ void RunSynth(const SynthArgs& a) {
   FitsWriteOptions w;
   w.overwrite = a.overwrite;
   w.provenance.command_line = a.command_line;
-  w.provenance.method = "synth (Milne-Eddington, Unno-Rachkovsky)";
+  w.provenance.method = "simulate (Milne-Eddington, Unno-Rachkovsky)";
   w.provenance.line = line.description;
   w.provenance.input = a.demo ? std::string("built-in demo scene") : a.params;
   w.provenance.keywords.push_back({"ZLNOISE", a.noise, "noise sigma / continuum"});
@@ -174,17 +188,17 @@ void RunSynth(const SynthArgs& a) {
 
 }  // namespace
 
-void AddSynthCommand(CLI::App& app, int argc, char** argv) {
-  auto a = std::make_shared<SynthArgs>();
+void AddSimulateCommand(CLI::App& app, int argc, char** argv) {
+  auto a = std::make_shared<SimulateArgs>();
   for (int i = 0; i < argc; ++i) a->command_line += (i ? " " : "") + std::string(argv[i]);
-  auto* cmd = app.add_subcommand("synth", "Synthetic Stokes cube (Milne–Eddington) with truth maps, from the demo scene or parameter maps");
+  auto* cmd = app.add_subcommand("simulate", "Synthetic Stokes cube (Milne–Eddington) with truth maps, from the demo scene or parameter maps");
   cmd->footer(
       "The demo scene is an invented bipolar region (docs/demo.md). --params reads a FITS file with image\n"
-      "HDUs FIELD [G], INCLINATION [deg], AZIMUTH [deg], VLOS [km/s] and optionally DOPPLER_WIDTH [nm],\n"
+      "HDUs B_TOTAL [G], B_INCL [deg], B_AZIM [deg], V_LOS [km/s] and optionally DOPPLER_WIDTH [nm],\n"
       "DAMPING, ETA0, S0, S1, FILL. Truth maps are written as TRUE_* HDUs after the cube.\n"
       "Examples:\n"
-      "  zeeline synth --demo --line FeI_6302 --catalog demo_maps/lines.csv -o demo_cube.fits\n"
-      "  zeeline synth --params truth.fits --lower 5P1 --upper 5D0 --wavelength 630.2494nm --frame air \\\n"
+      "  zeeline simulate --demo --line FeI_6302 --catalog demo_maps/lines.csv -o demo_cube.fits\n"
+      "  zeeline simulate --params truth.fits --lower 5P1 --upper 5D0 --wavelength 630.2494nm --frame air \\\n"
       "                --noise 5e-4 --seed 7 --instrument-fwhm 2.5pm -o cube.fits");
   cmd->add_flag("--demo", a->demo, "use the built-in demo scene");
   cmd->add_option("--params", a->params, "parameter maps (FITS)");
@@ -204,7 +218,7 @@ void AddSynthCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("--threads", a->threads, "worker threads (0 = all cores)")->capture_default_str();
   cmd->add_flag("--overwrite", a->overwrite, "replace an existing output file");
   cmd->add_flag("-q,--quiet", a->quiet, "no summary line");
-  cmd->callback([a] { RunSynth(*a); });
+  cmd->callback([a] { RunSimulate(*a); });
 }
 
 }  // namespace zeeline::cli
