@@ -164,7 +164,8 @@ TermStructure MakeTermStructure(const Level& level, const TermEnergies& energies
 }
 
 PaschenBackLine MakePaschenBackLine(const Level& lower, const TermEnergies& lower_energies, const Level& upper,
-                                    const TermEnergies& upper_energies, const LandeOptions& options) {
+                                    const TermEnergies& upper_energies, const LandeOptions& options,
+                                    const std::string& lower_source, const std::string& upper_source) {
   const std::string bad = options.Validate();
   if (!bad.empty()) throw OptionError(bad);
   for (const Level* lv : {&lower, &upper})
@@ -173,8 +174,8 @@ PaschenBackLine MakePaschenBackLine(const Level& lower, const TermEnergies& lowe
                             "' carries a measured g; the mixed-regime pattern is computed from the LS term and "
                             "would not reduce to it at zero field (drop ':g=' or use the zeeman regime)");
   PaschenBackLine line;
-  line.lower = MakeTermStructure(lower, lower_energies, "lower term energies");
-  line.upper = MakeTermStructure(upper, upper_energies, "upper term energies");
+  line.lower = MakeTermStructure(lower, lower_energies, lower_source);
+  line.upper = MakeTermStructure(upper, upper_energies, upper_source);
   line.two_J_lower = lower.two_J;
   line.two_J_upper = upper.two_J;
   line.g_spin = options.g_spin;
@@ -381,6 +382,90 @@ double SigmaHalfSeparation(const ZeemanPattern& p) {
   }
   if (!(w[0] > 0.0) || !(w[1] > 0.0)) return 0.0;
   return 0.5 * (c[1] / w[1] - c[0] / w[0]);
+}
+
+// ---------------------------------------------------------------------------- regime choice
+std::string RegimeOptions::Validate() const {
+  const std::string bad = lande.Validate();
+  if (!bad.empty()) return bad;
+  if (field_gauss && (!(*field_gauss >= 0.0) || !std::isfinite(*field_gauss)))
+    return "field_gauss = " + std::to_string(*field_gauss) + ": must be finite and >= 0";
+  return {};
+}
+
+namespace {
+
+std::string FieldText(double gauss) {
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.4g G", gauss);
+  return buf;
+}
+
+}  // namespace
+
+RegimePattern SelectPattern(const Level& lower, const Level& upper, const RegimeOptions& o) {
+  const std::string bad = o.Validate();
+  if (!bad.empty()) throw OptionError(bad);
+  RegimePattern r;
+  const bool energies_given = !o.lower_energies.empty() || !o.upper_energies.empty();
+  std::string why_not;
+  if (energies_given) {
+    r.line = MakePaschenBackLine(lower, o.lower_energies, upper, o.upper_energies, o.lande, o.lower_source,
+                                 o.upper_source);
+  } else {
+    try {
+      r.line = MakePaschenBackLine(lower, {}, upper, {}, o.lande, o.lower_source, o.upper_source);
+    } catch (const LevelParseError& e) {
+      why_not = e.what();
+    }
+  }
+  if (r.line) r.linear_breakdown_gauss = LinearBreakdownField_gauss(*r.line);
+  const bool has_field = o.field_gauss.has_value();
+  const double b = has_field ? *o.field_gauss : 0.0;
+  const bool field_demands = r.line && has_field && b > 0.1 * r.linear_breakdown_gauss;
+  const std::string breakdown_text =
+      r.line ? (std::isinf(r.linear_breakdown_gauss) ? std::string("the pattern stays linear at every field")
+                                                      : "linear breakdown field " + FieldText(r.linear_breakdown_gauss))
+             : std::string("linear breakdown field unknown (no term energies)");
+  auto linear = [&] { r.pattern = ComputeZeemanPattern(lower, upper, o.lande); };
+  auto mixed = [&] {
+    r.regime = ZeemanRegime::kPaschenBack;
+    r.pattern = b > 0.0 ? ComputePaschenBackPattern(*r.line, b).pattern : LinearLimitPattern(*r.line);
+  };
+  switch (o.regime) {
+    case ZeemanRegime::kZeeman:
+      linear();
+      r.note = "linear Zeeman pattern (requested); " + breakdown_text;
+      if (field_demands)
+        r.note += "; warning: the field " + FieldText(b) +
+                  " exceeds a tenth of the breakdown field, the linear pattern is inaccurate here";
+      break;
+    case ZeemanRegime::kPaschenBack:
+      if (!r.line) throw LevelParseError("regime paschen-back: " + why_not);
+      if (!has_field) throw OptionError("regime paschen-back needs the field (--field)");
+      mixed();
+      r.note = "mixed-regime (Paschen-Back) pattern at " + FieldText(b) + " (requested); " + breakdown_text;
+      break;
+    case ZeemanRegime::kAuto:
+      if (field_demands) {
+        mixed();
+        r.note = "mixed-regime (Paschen-Back) pattern: the field " + FieldText(b) + " exceeds a tenth of the " +
+                 breakdown_text;
+      } else {
+        linear();
+        r.note = "linear Zeeman pattern: ";
+        if (!r.line)
+          r.note += "no term energies for the mixed regime (" + why_not + ")";
+        else if (!has_field)
+          r.note += "no field given; " + breakdown_text;
+        else if (std::isinf(r.linear_breakdown_gauss))
+          r.note += breakdown_text;
+        else
+          r.note += "the field " + FieldText(b) + " is below a tenth of the " + breakdown_text;
+      }
+      break;
+  }
+  return r;
 }
 
 // ---------------------------------------------------------------------------- splitting table

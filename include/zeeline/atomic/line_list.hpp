@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "zeeline/atomic/level.hpp"
+#include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/core/wavelength_frame.hpp"
 
 namespace zeeline {
@@ -25,6 +26,7 @@ struct LineEntry {
   Level upper;
   std::optional<double> mass_amu;
   std::optional<double> einstein_A_per_s;
+  TermEnergies lower_term_energies, upper_term_energies;  ///< cm^-1, empty = not given
   int source_line = 0;  ///< 1-based line number in the file
 };
 

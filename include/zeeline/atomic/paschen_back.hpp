@@ -40,6 +40,8 @@
 #pragma once
 
 #include <cstdlib>
+#include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -95,8 +97,11 @@ struct PaschenBackLine {
 
 /// Checks the levels (LS, no measured g, equal S, dipole-allowed L and J) and builds the line.
 /// Throws LevelParseError naming the level or the missing energies.
+/// `lower_source` / `upper_source` name where the energies came from in messages (an option or a column).
 PaschenBackLine MakePaschenBackLine(const Level& lower, const TermEnergies& lower_energies, const Level& upper,
-                                    const TermEnergies& upper_energies, const LandeOptions& options = {});
+                                    const TermEnergies& upper_energies, const LandeOptions& options = {},
+                                    const std::string& lower_source = "lower term energies",
+                                    const std::string& upper_source = "upper term energies");
 
 /// An eigenstate of a term in the field: its adiabatic label, energy and uncoupled amplitudes.
 struct TermSublevel {
@@ -135,6 +140,34 @@ double LinearDeparture(const PaschenBackLine& line, double field_gauss);
 
 /// The field where LinearDeparture first exceeds 0.1 (see the file comment); +infinity if never below 1e8 G.
 double LinearBreakdownField_gauss(const PaschenBackLine& line);
+
+/// What the pattern of a line should be at a field, by regime (`zeeline line`, `measure`, the line list).
+struct RegimeOptions {
+  ZeemanRegime regime = ZeemanRegime::kAuto;
+  LandeOptions lande;
+  std::optional<double> field_gauss;  ///< unset: no field given (auto then stays linear)
+  TermEnergies lower_energies, upper_energies;  ///< empty: not known
+  std::string lower_source = "lower term energies", upper_source = "upper term energies";  ///< for messages
+
+  /// Empty when valid, otherwise a message naming the field and its value.
+  std::string Validate() const;
+};
+
+struct RegimePattern {
+  ZeemanRegime regime = ZeemanRegime::kZeeman;  ///< the pattern used: kZeeman (linear) or kPaschenBack
+  ZeemanPattern pattern;                        ///< components at the field (mixed) or linear
+  /// +infinity: never departs; NaN: unknown (energies not given, or not LS levels without measured g).
+  double linear_breakdown_gauss = std::numeric_limits<double>::quiet_NaN();
+  std::optional<PaschenBackLine> line;          ///< set when the mixed-regime model could be built
+  std::string note;                             ///< one sentence: why this regime
+};
+
+/// Rules: energies given -> the mixed-regime model must build (errors are thrown, naming the problem);
+/// none given -> it is built only when both terms are single levels. `zeeman` gives the linear pattern
+/// (with the level's measured g, if any) and notes when the field exceeds a tenth of the breakdown field;
+/// `paschen-back` needs the model and a field (OptionError otherwise; B = 0 gives the linear limit);
+/// `auto` uses the mixed pattern when the model exists and the field exceeds a tenth of the breakdown field.
+RegimePattern SelectPattern(const Level& lower, const Level& upper, const RegimeOptions& options);
 
 /// Half the distance between the strength-weighted centroids of the q = +1 and q = -1 groups, in Lorentz
 /// units (g_eff for a linear pattern). 0 when a sigma group is empty.

@@ -1,0 +1,260 @@
+#!/usr/bin/python3
+"""Outside check of `zeeline line --regime paschen-back|auto --json` (mixed-regime Zeeman patterns).
+
+An independent construction, sharing nothing with zeeline's code but the physics:
+  * the Hamiltonian sum_J E_J P_J + mu_B B (L_z + g_s S_z) is built in the *coupled* |(L S) J M> basis
+    (zeeline uses the uncoupled |M_L M_S> basis), with Clebsch-Gordan coefficients from
+    sympy.physics.quantum.cg.CG, and diagonalised with numpy.linalg.eigh;
+  * the dipole matrix elements come from the Wigner-Eckart theorem with a 6j recoupling factor
+    (Edmonds 1957, eqs. 5.4.1 and 7.1.7), sympy.physics.wigner.wigner_3j / wigner_6j;
+  * mu_B / (h c) from scipy.constants (CODATA: 'Bohr magneton in inverse meter per tesla').
+Labels are adiabatic (k-th lowest eigenvalue of a block <-> k-th lowest E_J with J >= |M|), shifts in
+Lorentz units of the field (positive = red), strengths normalised within each q = M_l - M_u group.
+Also checks the linear breakdown field against this construction (the departure crosses 10 % there), the
+`auto` rule (mixed above a tenth of the breakdown field) and the error exits.
+Usage: /usr/bin/python3 paschen_back_sympy_check.py /path/to/zeeline
+"""
+import json
+import os
+import subprocess
+import sys
+import tempfile
+from fractions import Fraction as F
+from functools import lru_cache
+
+import numpy as np
+import scipy.constants as sc
+from sympy import Rational, sqrt
+from sympy.physics.quantum.cg import CG
+from sympy.physics.wigner import wigner_3j, wigner_6j
+
+ZEELINE = sys.argv[1]
+MUB_CM1_PER_G = sc.physical_constants["Bohr magneton in inverse meter per tesla"][0] * 1e-6
+GS_CODATA = -sc.physical_constants["electron g factor"][0]
+LETTERS = "SPDFGHIKLMNOQ"
+failures = []
+
+# Tolerances: shifts and strengths are double-precision eigenvector results of small matrices.
+SHIFT_TOL = 1e-8
+STRENGTH_TOL = 1e-9
+
+
+def check(cond, what):
+    if not cond:
+        failures.append(what)
+        print("FAIL:", what)
+
+
+def run(*args, expect_rc=0):
+    p = subprocess.run([ZEELINE, *args], capture_output=True, text=True)
+    if p.returncode != expect_rc:
+        failures.append(f"{args}: exit {p.returncode}, expected {expect_rc}; stderr={p.stderr.strip()}")
+    return p
+
+
+def R(x):
+    return Rational(F(x).numerator, F(x).denominator)
+
+
+@lru_cache(maxsize=None)
+def cg(L, ML, S, MS, J, M):
+    return float(CG(R(L), R(ML), R(S), R(MS), R(J), R(M)).doit())
+
+
+@lru_cache(maxsize=None)
+def dipole(Lu, Ju, Ll, Jl, S, Mu, Ml):
+    """<(Lu S) Ju Mu | d_p | (Ll S) Jl Ml> with <Lu||d||Ll> = 1, p = Mu - Ml (Edmonds 5.4.1, 7.1.7)."""
+    p = Mu - Ml
+    if abs(p) > 1:
+        return 0.0
+    w3 = wigner_3j(R(Ju), 1, R(Jl), R(-Mu), R(p), R(Ml))
+    w6 = wigner_6j(R(Lu), R(Ju), R(S), R(Jl), R(Ll), 1)
+    phase = (-1) ** int(Ju - Mu) * (-1) ** int(Lu + S + Jl + 1)
+    return float(phase * sqrt((2 * R(Ju) + 1) * (2 * R(Jl) + 1)) * w3 * w6)
+
+
+def sublevels(L, S, energies, B, gs, ref):
+    """[(J label, M, energy - ref, {J: amplitude})] for every eigenstate of the term."""
+    x = MUB_CM1_PER_G * B
+    Jmax = L + S
+    out = []
+    M = -Jmax
+    while M <= Jmax:
+        Js = sorted(J for J in energies if J >= abs(M))
+        n = len(Js)
+        H = np.zeros((n, n))
+        for a, Ja in enumerate(Js):
+            H[a, a] += energies[Ja] - ref
+            for b, Jb in enumerate(Js):
+                z = 0.0
+                ML = -L
+                while ML <= L:
+                    MS = M - ML
+                    if abs(MS) <= S:
+                        z += cg(L, ML, S, MS, Ja, M) * cg(L, ML, S, MS, Jb, M) * (float(ML) + gs * float(MS))
+                    ML += 1
+                H[a, b] += x * z
+        vals, vecs = np.linalg.eigh(H)
+        labels = sorted(Js, key=lambda J: energies[J])
+        for k in range(n):
+            out.append((labels[k], M, vals[k], {Js[i]: vecs[i, k] for i in range(n)}))
+        M += 1
+    return out
+
+
+def pattern(lower, upper, B, gs):
+    """lower/upper: (L, S, J, {J: E}). Returns {(Mu, Ml): (q, shift, strength)}."""
+    Ll, S, Jl, El = lower
+    Lu, S2, Ju, Eu = upper
+    assert S == S2
+    x = MUB_CM1_PER_G * B
+    up = sublevels(Lu, S, Eu, B, gs, Eu[Ju])
+    lo = sublevels(Ll, S, El, B, gs, El[Jl])
+    comps = {}
+    for (J1, Mu, e_u, cu) in up:
+        if J1 != Ju:
+            continue
+        for (J2, Ml, e_l, cl) in lo:
+            if J2 != Jl or abs(Ml - Mu) > 1:
+                continue
+            amp = sum(cu[a] * cl[b] * dipole(Lu, a, Ll, b, S, Mu, Ml) for a in cu for b in cl)
+            comps[(float(Mu), float(Ml))] = [int(Ml - Mu), -(e_u - e_l) / x, amp * amp]
+    for q in (-1, 0, 1):
+        tot = sum(c[2] for c in comps.values() if c[0] == q)
+        for c in comps.values():
+            if c[0] == q:
+                c[2] /= tot
+    return comps
+
+
+def linear_shift(term, gs):
+    L, S, J, _ = term
+    if J == 0:
+        return 0.0
+    return 1 + (gs - 1) * (J * (J + 1) - L * (L + 1) + S * (S + 1)) / (2 * J * (J + 1))
+
+
+def departure(lower, upper, B, gs):
+    gl, gu = linear_shift(lower, gs), linear_shift(upper, gs)
+    comps = pattern(lower, upper, B, gs)
+    lin = {k: gl * k[1] - gu * k[0] for k in comps}
+    # mean |linear sigma shift| weighted by the linear strengths: 3 (Ju Jl 1; -Mu Ml -q)^2 per group
+    Ju, Jl = upper[2], lower[2]
+    num = den = 0.0
+    for (Mu, Ml) in comps:
+        q = Ml - Mu
+        if q == 0:
+            continue
+        s = 3 * float(wigner_3j(R(Ju), R(Jl), 1, R(-Mu), R(Ml), R(-q))) ** 2
+        num += s * abs(lin[(Mu, Ml)])
+        den += s
+    scale = num / den if den > 0 and num / den > 1e-9 else 1.0
+    return max(abs(comps[k][1] - lin[k]) for k in comps) / scale
+
+
+def fmt_energies(e):
+    return ",".join(f"{str(F(J))}={v!r}" for J, v in sorted(e.items()))
+
+
+def level_text(L, S, J):
+    return f"{int(2 * S + 1)}{LETTERS[L]}{F(J)}"
+
+
+def compare(name, lower, upper, B, gs=None):
+    args = ["line", "--lower", level_text(*lower[:3]), "--upper", level_text(*upper[:3]), "--field", f"{B}G",
+            "--regime", "paschen-back", "--json"]
+    if len(lower[3]) > 1:
+        args += ["--lower-term-energies", fmt_energies(lower[3])]
+    if len(upper[3]) > 1:
+        args += ["--upper-term-energies", fmt_energies(upper[3])]
+    if gs is not None:
+        args += ["--gs", str(gs)]
+    p = run(*args)
+    if p.returncode != 0:
+        return None
+    out = json.loads(p.stdout)
+    check(out["regime"] == "paschen-back", f"{name}: regime {out['regime']}")
+    ref = pattern(lower, upper, B, GS_CODATA if gs is None else gs)
+    got = {(c["Mu"], c["Ml"]): c for c in out["components"]}
+    worst_shift = worst_strength = 0.0
+    for key, (q, shift, strength) in ref.items():
+        if key not in got:
+            check(strength < 1e-12, f"{name}: component {key} (strength {strength:.3g}) missing")
+            continue
+        c = got[key]
+        check(c["q"] == q, f"{name}: {key} q {c['q']} vs {q}")
+        worst_shift = max(worst_shift, abs(c["shift"] - shift))
+        worst_strength = max(worst_strength, abs(c["strength"] - strength))
+    for key in got:
+        check(key in ref, f"{name}: extra component {key}")
+    check(worst_shift < SHIFT_TOL, f"{name}: max |shift diff| {worst_shift:.3g}")
+    check(worst_strength < STRENGTH_TOL, f"{name}: max |strength diff| {worst_strength:.3g}")
+    for q in (-1, 0, 1):
+        tot = sum(c["strength"] for c in out["components"] if c["q"] == q)
+        check(abs(tot - 1) < 1e-12, f"{name}: q = {q} strengths sum to {tot}")
+    print(f"{name}: {len(got)} components, max |shift diff| {worst_shift:.2e} L.u., "
+          f"max |strength diff| {worst_strength:.2e}, breakdown {out['linear_breakdown_gauss']:.6g} G")
+    return out
+
+
+# Alkali-like doublets (Na 3p 2P 16956.170 / 16973.366 cm^-1, Li 2p 2P 14903.66 / 14904.00 cm^-1; from memory)
+NA_2P = {F(1, 2): 16956.170, F(3, 2): 16973.366}
+LI_2P = {F(1, 2): 14903.66, F(3, 2): 14904.00}
+S_HALF = (0, F(1, 2), F(1, 2), {F(1, 2): 0.0})
+compare("Na D2 3 T", S_HALF, (1, F(1, 2), F(3, 2), NA_2P), 3e4)
+compare("Na D1 10 T (g_s 2)", S_HALF, (1, F(1, 2), F(1, 2), NA_2P), 1e5, gs=2)
+compare("Li D2 0.5 T", S_HALF, (1, F(1, 2), F(3, 2), LI_2P), 5e3)
+# A 3P term on the interval rule (A = 20 cm^-1, invented) with a 3S1 upper level, at 8 T.
+P3 = {0: -40.0, 1: -20.0, 2: 20.0}
+for J in (0, 1, 2):
+    compare(f"3P{J}-3S1 8 T", (1, 1, F(J), P3), (0, 1, F(1), {1: 0.0}), 8e4)
+# Both terms mixed, off the interval rule, the lower one inverted (invented energies): 3D -> 3P at 2 T.
+P3_ODD = {0: 100.0, 1: 101.5, 2: 104.7}
+D3_INV = {1: 5.9, 2: 2.3, 3: 0.0}
+for Jl, Ju in ((1, 0), (2, 1), (2, 2), (3, 2), (1, 2)):
+    compare(f"3D{Jl}-3P{Ju} 2 T", (2, 1, F(Jl), D3_INV), (1, 1, F(Ju), P3_ODD), 2e4)
+
+# Breakdown field: the departure computed here crosses 10 % at the reported field.
+for lower, upper, name in ((S_HALF, (1, F(1, 2), F(3, 2), NA_2P), "Na D2"),
+                           ((2, 1, F(2), D3_INV), (1, 1, F(1), P3_ODD), "3D2-3P1")):
+    out = compare(name + " 1 T", lower, upper, 1e4)
+    if out:
+        bb = out["linear_breakdown_gauss"]
+        lo, hi = departure(lower, upper, bb * 0.999, GS_CODATA), departure(lower, upper, bb * 1.001, GS_CODATA)
+        check(lo < 0.1 < hi, f"{name}: departure {lo:.6f} / {hi:.6f} around the breakdown field {bb} G")
+        print(f"{name}: departure {lo:.5f} at 0.999 B_b, {hi:.5f} at 1.001 B_b")
+
+# auto: linear below a tenth of the breakdown field, mixed above.
+base = ["line", "--lower", "2S1/2", "--upper", "2P3/2", "--upper-term-energies", "1/2=16956.170,3/2=16973.366", "--json"]
+bb = json.loads(run(*base, "--field", "1G").stdout)["linear_breakdown_gauss"]
+below = json.loads(run(*base, "--field", f"{0.099 * bb}G").stdout)
+above = json.loads(run(*base, "--field", f"{0.101 * bb}G").stdout)
+check(below["regime"] == "zeeman" and above["regime"] == "paschen-back",
+      f"auto around B_b/10: {below['regime']} / {above['regime']}")
+zee = json.loads(run(*base, "--field", "5T", "--regime", "zeeman").stdout)
+check(zee["regime"] == "zeeman" and "warning" in zee["regime_note"], "zeeman at 5 T warns: " + zee["regime_note"])
+plain = json.loads(run("line", "--lower", "5P1", "--upper", "5D0", "--field", "1T", "--json").stdout)
+check(plain["regime"] == "zeeman" and plain["linear_breakdown_gauss"] is None, "no energies: zeeman, breakdown null")
+
+# Errors: missing level energies (bad data, 1), bad regime / --png without --fields (command line, 2),
+# existing PNG without --overwrite (3).
+p = run("line", "--lower", "2S1/2", "--upper", "2P3/2", "--field", "1T", "--regime", "paschen-back",
+        "--upper-term-energies", "3/2=16973.366", expect_rc=1)
+check("missing the energy of J = 1/2" in p.stderr and "--upper-term-energies" in p.stderr, "missing J: " + p.stderr)
+run("line", "--lower", "2S1/2", "--upper", "2P3/2", "--regime", "strong", expect_rc=2)
+run("line", "--lower", "2S1/2", "--upper", "2P3/2", "--png", "x.png", expect_rc=2)
+with tempfile.TemporaryDirectory() as d:
+    png = os.path.join(d, "sweep.png")
+    sweep = ["line", "--lower", "2S1/2", "--upper", "2P3/2", "--upper-term-energies", "1/2=14903.66,3/2=14904.00",
+             "--fields", "0T:2T:21", "--png", png]
+    run(*sweep)
+    with open(png, "rb") as f:
+        check(f.read(8) == b"\x89PNG\r\n\x1a\n", "sweep PNG signature")
+    run(*sweep, expect_rc=3)
+    js = json.loads(run(*sweep[:-2], "--json").stdout)
+    check(len(js["sweep"]) == 21 and js["sweep"][-1]["regime"] == "paschen-back", "sweep JSON")
+
+if failures:
+    print(f"{len(failures)} failure(s)")
+    sys.exit(1)
+print("all mixed-regime checks passed")
