@@ -40,7 +40,8 @@ std::vector<std::string> SplitCells(const std::string& line) {
 }
 
 const char* const kRequired[] = {"name", "wavelength", "frame", "species", "lower", "upper"};
-const char* const kOptional[] = {"g_lower", "g_upper", "mass_amu", "einstein_A"};
+const char* const kOptional[] = {"g_lower", "g_upper", "mass_amu", "einstein_A", "lower_term_energies",
+                                 "upper_term_energies"};
 
 }  // namespace
 
@@ -67,7 +68,7 @@ std::vector<LineEntry> ParseLineList(const std::string& text, const std::string&
         if (!known)
           throw LineListError(where("") + ": unknown column '" + cells[i] +
                               "' in header (known: name, wavelength, frame, species, lower, upper, g_lower, "
-                              "g_upper, mass_amu, einstein_A)");
+                              "g_upper, mass_amu, einstein_A, lower_term_energies, upper_term_energies)");
         if (column.count(cells[i])) throw LineListError(where("") + ": column '" + cells[i] + "' repeated");
         column[cells[i]] = i;
       }
@@ -126,6 +127,18 @@ std::vector<LineEntry> ParseLineList(const std::string& text, const std::string&
     e.einstein_A_per_s = number("einstein_A");
     if (e.einstein_A_per_s && *e.einstein_A_per_s < 0.0)
       throw LineListError(where("einstein_A") + ": Einstein A must not be negative");
+    for (const char* col : {"lower_term_energies", "upper_term_energies"}) {
+      const std::string energies_text = cell(col);
+      if (energies_text.empty()) continue;
+      try {
+        (col[0] == 'l' ? e.lower_term_energies : e.upper_term_energies) = ParseTermEnergies(energies_text, "term energies");
+        // complete and consistent with the level (every J, no other): checked here, not at first use
+        MakeTermStructure(col[0] == 'l' ? e.lower : e.upper,
+                          col[0] == 'l' ? e.lower_term_energies : e.upper_term_energies, "term energies");
+      } catch (const LevelParseError& err) {
+        throw LineListError(where(col) + ": " + err.what());
+      }
+    }
     for (const auto& prev : out)
       if (prev.name == e.name)
         throw LineListError(where("name") + ": line name '" + e.name + "' already used on line " +

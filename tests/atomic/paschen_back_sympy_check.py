@@ -254,6 +254,17 @@ with tempfile.TemporaryDirectory() as d:
     js = json.loads(run(*sweep[:-2], "--json").stdout)
     check(len(js["sweep"]) == 21 and js["sweep"][-1]["regime"] == "paschen-back", "sweep JSON")
 
+# The line list's term-energy columns give the same pattern as the options.
+with tempfile.TemporaryDirectory() as d:
+    cat = os.path.join(d, "lamp.csv")
+    with open(cat, "w") as f:
+        f.write("name,wavelength,frame,species,lower,upper,upper_term_energies\n"
+                "LiI_6708,670.791nm,air,Li I,2S1/2,2Po3/2,1/2=14903.66;3/2=14904.00\n")
+    a = json.loads(run("line", "--catalog", cat, "--line", "LiI_6708", "--field", "1T", "--json").stdout)
+    b = json.loads(run("line", "--lower", "2S1/2", "--upper", "2Po3/2", "--wavelength", "670.791nm", "--field", "1T",
+                       "--upper-term-energies", "1/2=14903.66,3/2=14904.00", "--json").stdout)
+    check(a["regime"] == "paschen-back" and a["components"] == b["components"], "catalog energies = option energies")
+
 if failures:
     print(f"{len(failures)} failure(s)")
     sys.exit(1)

@@ -3,7 +3,8 @@
 // Lines starting with '#' and blank lines are ignored. The first other line is a header naming the
 // columns (any order). Required: name, wavelength, frame, species, lower, upper.
 // Optional: g_lower, g_upper (measured Landé factors, override the computed ones), mass_amu,
-// einstein_A (s^-1). Cells are separated by commas and trimmed; there is no quoting; commas inside
+// einstein_A (s^-1), lower_term_energies and upper_term_energies ("J=E;J=E" in cm^-1, every level of the
+// level's LS term: the mixed-regime pattern, atomic/paschen_back.hpp). Cells are separated by commas and trimmed; there is no quoting; commas inside
 // parentheses (jK(...), jj(...) levels) do not split cells. Wavelength cells carry a unit ("630.2494nm", "6302.494A"; bare numbers are nm).
 #pragma once
 
