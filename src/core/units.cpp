@@ -49,14 +49,19 @@ double Convert(const std::string& text, const char* what, const std::vector<Unit
                   "': expected one of " + allowed);
 }
 
-}  // namespace
-
-double ParseWavelength_nm(const std::string& text) {
+// Lengths (and wavelengths) to nm.
+const std::vector<UnitFactor>& LengthUnits() {
   static const std::vector<UnitFactor> kUnits = {
       {"nm", 1.0},   {"A", 0.1},   {"AA", 0.1},   {"Angstrom", 0.1}, {"angstrom", 0.1},
       {"m", 1e9},    {"cm", 1e7},  {"mm", 1e6},   {"um", 1e3},       {"micron", 1e3},
       {"pm", 1e-3}};
-  const double nm = Convert(text, "wavelength", kUnits, "nm");
+  return kUnits;
+}
+
+}  // namespace
+
+double ParseWavelength_nm(const std::string& text) {
+  const double nm = Convert(text, "wavelength", LengthUnits(), "nm");
   if (!(nm > 0.0)) throw UnitError("wavelength '" + text + "' must be positive");
   return nm;
 }
@@ -71,6 +76,55 @@ double ParseVelocity_kms(const std::string& text) {
   static const std::vector<UnitFactor> kUnits = {
       {"km/s", 1.0}, {"kms", 1.0}, {"m/s", 1e-3}, {"cm/s", 1e-5}};
   return Convert(text, "velocity", kUnits, "km/s");
+}
+
+double ParseTemperature_K(const std::string& text) {
+  // 1 eV / k_B = e / k_B (CODATA 2018 exact values): 11604.518... K.
+  static const std::vector<UnitFactor> kUnits = {
+      {"K", 1.0}, {"kK", 1e3}, {"eV", constants::kElementaryCharge_C / constants::kBoltzmann_J_K}};
+  const double kelvin = Convert(text, "temperature", kUnits, "K");
+  if (!(kelvin > 0.0)) throw UnitError("temperature '" + text + "' must be positive");
+  return kelvin;
+}
+
+double ParsePressure_Pa(const std::string& text) {
+  // 1 Torr = 101325/760 Pa and 1 atm = 101325 Pa (exact by definition).
+  static const std::vector<UnitFactor> kUnits = {
+      {"Pa", 1.0},      {"hPa", 1e2},  {"kPa", 1e3},           {"MPa", 1e6},
+      {"mbar", 1e2},    {"bar", 1e5},  {"Torr", 101325.0 / 760.0}, {"mTorr", 0.101325 / 760.0},
+      {"atm", 101325.0}};
+  const double pa = Convert(text, "pressure", kUnits, "Pa");
+  if (!(pa >= 0.0)) throw UnitError("pressure '" + text + "' must not be negative");
+  return pa;
+}
+
+double ParseNumberDensity_cm3(const std::string& text) {
+  static const std::vector<UnitFactor> kUnits = {
+      {"cm-3", 1.0}, {"cm^-3", 1.0}, {"/cm3", 1.0}, {"/cm^3", 1.0}, {"m-3", 1e-6}, {"m^-3", 1e-6}, {"/m3", 1e-6}};
+  const double n = Convert(text, "number density", kUnits, "cm-3");
+  if (!(n >= 0.0)) throw UnitError("number density '" + text + "' must not be negative");
+  return n;
+}
+
+double ParseMass_u(const std::string& text) {
+  static const std::vector<UnitFactor> kUnits = {
+      {"u", 1.0}, {"amu", 1.0}, {"Da", 1.0}, {"kg", 1.0 / constants::kAtomicMassUnit_kg}};
+  const double u = Convert(text, "mass", kUnits, "u");
+  if (!(u > 0.0)) throw UnitError("mass '" + text + "' must be positive");
+  return u;
+}
+
+double ParseLength_nm(const std::string& text) {
+  const double nm = Convert(text, "length", LengthUnits(), "nm");
+  if (!(nm > 0.0)) throw UnitError("length '" + text + "' must be positive");
+  return nm;
+}
+
+double ParseRate_per_s(const std::string& text) {
+  static const std::vector<UnitFactor> kUnits = {{"s-1", 1.0}, {"/s", 1.0}, {"s^-1", 1.0}, {"Hz", 1.0}};
+  const double rate = Convert(text, "rate", kUnits, "s-1");
+  if (!(rate >= 0.0)) throw UnitError("rate '" + text + "' must not be negative");
+  return rate;
 }
 
 double LorentzUnit_nm(double wavelength_nm, double field_gauss) {

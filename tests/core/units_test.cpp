@@ -79,5 +79,48 @@ TEST(Units, RejectsBadQuantitiesWithTheTextInTheMessage) {
   EXPECT_THROW(ParseField_gauss("3 furlongs"), UnitError);
 }
 
+TEST(Units, ParsesPlasmaQuantities) {
+  // 1 eV / k_B from scipy.constants (CODATA 2018): e / k = 11604.518... K.
+  const std::string out = RunPython("import scipy.constants as c; print(repr(c.e / c.k))");
+  ASSERT_FALSE(out.empty());
+  EXPECT_CLOSE(ParseTemperature_K("1eV"), std::stod(out), 1e-13);
+  EXPECT_CLOSE(ParseTemperature_K("10000K"), 1e4, 1e-15);
+  EXPECT_CLOSE(ParseTemperature_K("12kK"), 1.2e4, 1e-15);
+  // 1 Torr = 101325/760 Pa, 1 atm = 101325 Pa, 1 bar = 1e5 Pa (definitions).
+  EXPECT_CLOSE(ParsePressure_Pa("760Torr"), 101325.0, 1e-14);
+  EXPECT_CLOSE(ParsePressure_Pa("1atm"), 101325.0, 1e-15);
+  EXPECT_CLOSE(ParsePressure_Pa("1.3mbar"), 130.0, 1e-14);
+  EXPECT_CLOSE(ParsePressure_Pa("50000"), 5e4, 1e-15);
+  EXPECT_CLOSE(ParseNumberDensity_cm3("1e15cm-3"), 1e15, 1e-15);
+  EXPECT_CLOSE(ParseNumberDensity_cm3("1e21m-3"), 1e15, 1e-15);
+  EXPECT_CLOSE(ParseMass_u("4.0026u"), 4.0026, 1e-15);
+  EXPECT_CLOSE(ParseMass_u("55.845"), 55.845, 1e-15);
+  EXPECT_CLOSE(ParseMass_u("1.66053906660e-27kg"), 1.0, 1e-12);  // CODATA 2018 atomic mass constant
+  EXPECT_CLOSE(ParseLength_nm("3.6A"), 0.36, 1e-15);
+  EXPECT_CLOSE(ParseLength_nm("360pm"), 0.36, 1e-15);
+  EXPECT_CLOSE(ParseRate_per_s("6.1e7/s"), 6.1e7, 1e-15);
+  EXPECT_CLOSE(ParseRate_per_s("6.1e7s-1"), 6.1e7, 1e-15);
+  EXPECT_CLOSE(ParseVelocity_kms("1.5km/s"), 1.5, 1e-15);
+}
+
+TEST(Units, RejectsBadPlasmaQuantities) {
+  EXPECT_THROW(ParseTemperature_K("-5K"), UnitError);
+  EXPECT_THROW(ParseTemperature_K("0K"), UnitError);
+  EXPECT_THROW(ParseTemperature_K("300C"), UnitError);
+  EXPECT_THROW(ParsePressure_Pa("-1Pa"), UnitError);
+  EXPECT_THROW(ParsePressure_Pa("1psi"), UnitError);
+  EXPECT_THROW(ParseNumberDensity_cm3("1e15cm3"), UnitError);
+  EXPECT_THROW(ParseMass_u("0u"), UnitError);
+  EXPECT_THROW(ParseLength_nm("0nm"), UnitError);
+  EXPECT_THROW(ParseRate_per_s("-3/s"), UnitError);
+  try {
+    ParsePressure_Pa("3 furlongs");
+    FAIL();
+  } catch (const UnitError& e) {
+    EXPECT_NE(std::string(e.what()).find("3 furlongs"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find("Torr"), std::string::npos) << e.what();
+  }
+}
+
 }  // namespace
 }  // namespace zeeline

@@ -12,6 +12,9 @@ inline constexpr double kElementaryCharge_C = 1.602176634e-19;      // exact
 inline constexpr double kElectronMass_kg = 9.1093837015e-31;        // CODATA 2018
 inline constexpr double kBoltzmann_J_K = 1.380649e-23;              // exact
 inline constexpr double kAtomicMassUnit_kg = 1.66053906660e-27;     // CODATA 2018
+inline constexpr double kPlanck_J_s = 6.62607015e-34;              // exact
+inline constexpr double kVacuumPermittivity_F_m = 8.8541878128e-12; // CODATA 2018
+inline constexpr double kBohrRadius_m = 5.29177210903e-11;          // CODATA 2018
 /// Electron spin g-factor magnitude |g_e|, CODATA 2018 (g_e = -2.00231930436256).
 inline constexpr double kElectronSpinG = 2.00231930436256;
 

@@ -45,4 +45,11 @@ class SpectrumError : public std::runtime_error {
   using std::runtime_error::runtime_error;
 };
 
+/// A line-broadening analysis cannot use its input (a line without mass, lines of several species, no line
+/// in the spectrum); the message names the file, line and what was expected.
+class BroadeningError : public std::runtime_error {
+ public:
+  using std::runtime_error::runtime_error;
+};
+
 }  // namespace zeeline
