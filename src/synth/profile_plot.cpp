@@ -1,6 +1,7 @@
 #include "synth/profile_plot.hpp"
 
 #include "core/axis_ticks.hpp"
+#include "synth/cairo_text.hpp"
 
 #include <cairo.h>
 
@@ -23,10 +24,7 @@ struct Panel {
 };
 
 void Text(cairo_t* cr, double x, double y, const std::string& s, double align_x, double align_y) {
-  cairo_text_extents_t e;
-  cairo_text_extents(cr, s.c_str(), &e);
-  cairo_move_to(cr, x - align_x * e.width - e.x_bearing, y - align_y * e.height - e.y_bearing);
-  cairo_show_text(cr, s.c_str());
+  DrawAlignedText(cr, x, y, s, align_x, align_y);
 }
 
 void DrawPanel(cairo_t* cr, const Panel& p, const Eigen::ArrayXd& x, const Eigen::ArrayXd& y,
