@@ -22,6 +22,7 @@ int main(int argc, char** argv) {
   zeeline::cli::AddMeasureCommand(app);
   zeeline::cli::AddInfoCommand(app);
   zeeline::cli::AddViewCommand(app);
+  zeeline::cli::AddBroadeningCommand(app);
 
   try {
     app.parse(argc, argv);
