@@ -570,7 +570,7 @@ void RunDiagnose(const DiagnoseArgs& a) {
   }
   const WidthDiagnosis d = DiagnoseWidths(s, o);
   const std::vector<std::string> text = DiagnoseText(s, species, o, d);
-  if (!pngs.empty()) WriteDiagnosePngs(pngs, a.overwrite, s, o, d, WrapText(text, 60));
+  if (!pngs.empty()) WriteDiagnosePngs(pngs, a.overwrite, s, o, d, WrapText(text, 50));
   if (a.json) {
     WriteDiagnoseJson(std::cout, s, species, o, d);
     return;
