@@ -127,6 +127,7 @@ struct Problem {
   std::vector<int> group;       // continuum group of each sample
   std::vector<double> group_ref;
   double sigma_I = 1.0, sigma_V = 1.0;
+  double reach_nm = 0.0;  // line profiles are computed within this distance of their line
   int n_groups = 0;
   // scratch
   mutable std::vector<std::vector<double>> pI, pV;
@@ -136,7 +137,7 @@ struct Problem {
 
   // Weighted design matrix and data for one shape.
   void Design(const LineSetShape& shape, Mat& X, Vec& y) const {
-    LineSetProfiles(lines, shape, instrument_fwhm_nm, wl, pI, pV);
+    LineSetProfiles(lines, shape, instrument_fwhm_nm, wl, pI, pV, reach_nm);
     const int n = static_cast<int>(wl.size()), rows = Rows(), nl = static_cast<int>(lines.size());
     X.setZero(rows, LinearParams());
     y.resize(rows);
@@ -414,6 +415,9 @@ WidthDiagnosis DiagnoseWidths(const Spectrum1D& s, const WidthDiagnosisOptions& 
   }
   if (!(d.noise_I > 0.0) || (fit_v && !(d.noise_V > 0.0)))
     throw BroadeningError(s.source + ": the measured noise is zero; give it with --noise");
+  double widest = 0.0;
+  for (double hw : d.window_halfwidth_nm) widest = std::max(widest, hw);
+  prob.reach_nm = std::max(20.0 * widest, 1.0);  // far wings beyond are < 1e-6 of the area per nm
   prob.sigma_I = d.noise_I;
   prob.sigma_V = d.noise_V;
   d.has_v = fit_v;
@@ -442,7 +446,16 @@ WidthDiagnosis DiagnoseWidths(const Spectrum1D& s, const WidthDiagnosisOptions& 
   typical << u0, wd_ref, u0, field_scale, 10.0;
   Bounds box{Vec(kParams), Vec(kParams)};
   box.lo << 1e-3 * u0, 0.0, v0 - 20.0 * u0, 0.0, 0.0;
-  box.hi << 100.0 * u0, 100.0 * wd_ref, v0 + 20.0 * u0, 1e3 * field_scale, fit_v ? 180.0 : 90.0;
+  // The field may move no Zeeman component out of its line's window (beyond, a pi-only fit of I is possible
+  // and meaningless).
+  double field_max = 1e3 * field_scale;
+  for (std::size_t i = 0; i < nl; ++i) {
+    double smax = 0.0;
+    for (const ZeemanComponent& c : o.lines[i].line.pattern.components) smax = std::max(smax, std::fabs(c.shift_lorentz));
+    if (smax > 0.0)
+      field_max = std::min(field_max, d.window_halfwidth_nm[i] / (LorentzUnit_nm(o.lines[i].line.rest_wavelength_nm, 1.0) * smax));
+  }
+  box.hi << 100.0 * u0, 100.0 * wd_ref, v0 + 20.0 * u0, field_max, fit_v ? 180.0 : 90.0;
 
   // ---- (a) non-magnetic
   const std::vector<int> free_a = {kSpeed, kGamma, kVlos};
@@ -463,15 +476,24 @@ WidthDiagnosis DiagnoseWidths(const Spectrum1D& s, const WidthDiagnosisOptions& 
   const std::vector<int> free_b = {kSpeed, kGamma, kVlos, kField, kIncl};
   LmResult best_b = best_a;  // B = 0 reproduces model (a) exactly
   best_b.p[kIncl] = 60.0;
-  for (double bfrac : {0.4, 1.0, 2.0})
-    for (double incl : fit_v ? std::vector<double>{30.0, 80.0, 150.0} : std::vector<double>{35.0, 80.0}) {
-      Vec p = best_a.p;
-      p[kField] = bfrac * field_scale;
-      p[kIncl] = incl;
-      p[kSpeed] = best_a.p[kSpeed] * (bfrac > 1.0 ? 0.6 : 0.85);
-      const LmResult r = Minimise(prob, p, free_b, box, typical);
-      if (r.chi2 < best_b.chi2) best_b = r;
-    }
+  // Starting grid over (B, inclination, speed), ranked by chi2; Levenberg-Marquardt from the best few.
+  std::vector<std::pair<double, Vec>> starts;
+  const std::vector<double> incls =
+      fit_v ? std::vector<double>{20.0, 50.0, 80.0, 100.0, 130.0, 160.0} : std::vector<double>{20.0, 50.0, 80.0};
+  for (double bfrac : {0.3, 0.7, 1.5, 2.5})
+    for (double incl : incls)
+      for (double ufrac : {0.95, 0.75, 0.5}) {
+        Vec p = best_a.p;
+        p[kField] = bfrac * field_scale;
+        p[kIncl] = incl;
+        p[kSpeed] = best_a.p[kSpeed] * ufrac;
+        starts.push_back({prob.Residuals(ToShape(p)).squaredNorm(), p});
+      }
+  std::sort(starts.begin(), starts.end(), [](const auto& x, const auto& y) { return x.first < y.first; });
+  for (std::size_t k = 0; k < std::min<std::size_t>(3, starts.size()); ++k) {
+    const LmResult r = Minimise(prob, starts[k].second, free_b, box, typical);
+    if (r.chi2 < best_b.chi2) best_b = r;
+  }
   if (best_b.jtj.rows() != static_cast<long>(free_b.size())) {  // keep the B = 0 start's covariance defined
     best_b = Minimise(prob, best_b.p, free_b, box, typical, 1);
   }
@@ -526,14 +548,24 @@ WidthDiagnosis DiagnoseWidths(const Spectrum1D& s, const WidthDiagnosisOptions& 
     // Profile likelihood: chi2_b(B) minimised over everything else, walked up from the best fit.
     const std::vector<int> free_p = {kSpeed, kGamma, kVlos, kIncl};
     const double target = d.magnetic.chi2 + o.confidence_delta_chi2;
-    const double step = std::max(0.15 * field_scale, 0.5 * d.magnetic.field_err_gauss);
+    const double err = d.magnetic.field_err_gauss;
+    const double step = std::min(0.05 * field_max, std::isfinite(err) && err < field_scale ? std::max(0.15 * field_scale, 0.5 * err)
+                                                                                           : 0.15 * field_scale);
+    // The inclination is profiled from the previous point's value and from the other side of 45 deg (I alone
+    // may have minima at both ends: sigma-only and pi-dominated shapes).
+    auto profile = [&](Vec q) {
+      LmResult r = Minimise(prob, q, free_p, box, typical, 60);
+      q[kIncl] = q[kIncl] < 45.0 ? 80.0 : 20.0;
+      const LmResult other = Minimise(prob, q, free_p, box, typical, 60);
+      return other.chi2 < r.chi2 ? other : r;
+    };
     Vec p = best_b.p;
     double b_lo = p[kField], b_hi = NAN;
     Vec p_lo = p;
-    for (int k = 1; k <= 60 && std::isnan(b_hi); ++k) {
+    for (int k = 1; k <= 60 && std::isnan(b_hi) && b_lo < field_max; ++k) {
       Vec q = p_lo;
-      q[kField] = b_lo + step;
-      const LmResult r = Minimise(prob, q, free_p, box, typical, 60);
+      q[kField] = std::min(b_lo + step, field_max);
+      const LmResult r = profile(q);
       if (r.chi2 > target) {
         b_hi = q[kField];
       } else {
@@ -542,10 +574,10 @@ WidthDiagnosis DiagnoseWidths(const Spectrum1D& s, const WidthDiagnosisOptions& 
       }
     }
     if (!std::isnan(b_hi)) {
-      for (int k = 0; k < 14; ++k) {
+      for (int k = 0; k < 10; ++k) {
         Vec q = p_lo;
         q[kField] = 0.5 * (b_lo + b_hi);
-        const LmResult r = Minimise(prob, q, free_p, box, typical, 60);
+        const LmResult r = profile(q);
         if (r.chi2 > target) {
           b_hi = q[kField];
         } else {
@@ -631,7 +663,8 @@ WidthDiagnosis DiagnoseWidths(const Spectrum1D& s, const WidthDiagnosisOptions& 
     if (d.upper_limit_gauss)
       v << Fmt(" 95 %% upper limit B < %.0f G.", *d.upper_limit_gauss);
     else
-      v << " The field is not bounded by these data.";
+      v << Fmt(" The data do not bound the field below %.0f G, where Zeeman components would leave the fit windows.",
+               field_max);
   }
   d.verdict = v.str();
   return d;

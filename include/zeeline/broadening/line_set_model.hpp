@@ -43,8 +43,10 @@ struct LineSetShape {
 
 /// Unit-area line profiles (columns) of each line at the given wavelengths for I and V:
 /// I(l) = sum_i A_i profile_I[i](l), V likewise. Vectors are resized to lines.size() x wavelengths.size().
+/// reach_nm > 0 skips samples farther than that from a line's rest wavelength (its profile is taken as 0
+/// there: a Lorentzian wing of HWHM gamma has fallen to gamma / (pi reach^2) per nm of area).
 void LineSetProfiles(const std::vector<ModelLine>& lines, const LineSetShape& shape, double instrument_fwhm_nm,
                      const std::vector<double>& wavelength_nm, std::vector<std::vector<double>>& profile_I,
-                     std::vector<std::vector<double>>& profile_V);
+                     std::vector<std::vector<double>>& profile_V, double reach_nm = 0.0);
 
 }  // namespace zeeline
