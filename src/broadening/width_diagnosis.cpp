@@ -202,8 +202,8 @@ LmResult Minimise(const Problem& prob, Vec p, const std::vector<int>& free, cons
   double lambda = 1e-3;
   LmResult out;
   Mat J(r.size(), m);
-  for (int it = 0; it < max_iterations; ++it) {
-    out.iterations = it + 1;
+  // Forward differences of the projected residuals (backward at an upper limit).
+  auto jacobian = [&] {
     for (int j = 0; j < m; ++j) {
       const int k = free[j];
       Vec q = p;
@@ -212,6 +212,10 @@ LmResult Minimise(const Problem& prob, Vec p, const std::vector<int>& free, cons
       q[k] += h;
       J.col(j) = (prob.Residuals(ToShape(q)) - r) / h;
     }
+  };
+  for (int it = 0; it < max_iterations; ++it) {
+    out.iterations = it + 1;
+    jacobian();
     const Mat JtJ = J.transpose() * J;
     const Vec g = J.transpose() * r;
     bool improved = false;
@@ -238,14 +242,7 @@ LmResult Minimise(const Problem& prob, Vec p, const std::vector<int>& free, cons
     }
     if (!improved) break;
   }
-  for (int j = 0; j < m; ++j) {  // Jacobian at the solution for the covariance
-    const int k = free[j];
-    Vec q = p;
-    double h = 1e-6 * std::max(std::fabs(p[k]), typical[k]);
-    if (q[k] + h > box.hi[k]) h = -h;
-    q[k] += h;
-    J.col(j) = (prob.Residuals(ToShape(q)) - r) / h;
-  }
+  jacobian();  // at the solution, for the covariance
   out.p = p;
   out.chi2 = chi2;
   out.jtj = J.transpose() * J;

@@ -323,7 +323,7 @@ WidthDiagnosisOptions DiagnoseOptionsFrom(const DiagnoseArgs& a, const Spectrum1
     for (const LineEntry& e : catalog)
       if (SpectrumCovers(s, e.wavelength_nm)) chosen.push_back(&e);
     if (chosen.empty())
-      throw BroadeningError(a.catalog + ": no line lies inside the spectrum " + s.source + " (" +
+      throw BroadeningError(a.catalog + ": no catalog line has samples in the spectrum " + s.source + " (" +
                             Num(s.wavelength_nm.front(), "%.4f") + " - " + Num(s.wavelength_nm.back(), "%.4f") +
                             " nm); name them with --lines");
   }

@@ -12,6 +12,11 @@ Voigt profiles; Lorentz unit 4.6686e-13 lambda[A]^2 B[G] A, LL04 eq. 3.8), indep
     made here with scipy.optimize.least_squares, and recovered within 3 sigma;
   * the same plasma hot and without field: no detection, an upper limit above zero;
   * one line, and two lines with equal width factor x lambda^2, in a field: `degenerate`, no detection;
+  * two absorption lines with Stokes V in a field, as a table and as a FITS file (astropy): the same answer
+    from both; their width factor x lambda^2 differ by only 4 %, so the set is degenerate and the detection
+    rests on V; the fitted inclination must be below 90 deg (field toward the observer), which checks the sign
+    of V in absorption: V = A (phi_r - phi_b) cos(g) / 2 with A < 0 tends, for small splitting, to
+    V = -Delta lambda_B g_eff cos(g) dI/dlambda (LL04 eq. 9.77, docs/conventions.md);
   * errors: lines of two species, a line without mass (exit 1).
 
 Usage: /usr/bin/python3 broadening_cli_check.py PATH/TO/zeeline
@@ -24,6 +29,7 @@ import sys
 import tempfile
 
 import numpy as np
+from astropy.io import fits
 import scipy.constants as sc
 from scipy.optimize import brentq, least_squares
 from scipy.special import wofz
@@ -36,6 +42,7 @@ STEP = 0.0015
 LINES = {"HeI_5016": (501.5678, "1S0", "1P1"), "HeI_6678": (667.8151, "1P1", "1D2"),
          "HeI_7281": (728.1349, "1P1", "1S0")}
 CATALOG = """name,wavelength,frame,species,lower,upper,g_lower,g_upper,mass_amu
+HeI_4922,492.1931nm,air,He I,1P1,1D2,,,4.002602
 HeI_5016,501.5678nm,air,He I,1S0,1P1,,,4.002602
 HeI_6678,667.8151nm,air,He I,1P1,1D2,,,4.002602
 HeI_7281,728.1349nm,air,He I,1P1,1S0,,,4.002602
@@ -220,6 +227,48 @@ def main():
     check(r.returncode == 0 and d["degenerate"] is True and d["magnetic_required"] is False,
           "equal width factor x lambda^2: degenerate, no detection (significance %.1f)" % d["significance_sigma"])
     check("lambda^2" in d["degeneracy_reason"], "reason names z lambda^2")
+
+    # Absorption with V, one contiguous spectrum 491.9 - 501.9 nm, table and FITS.
+    wl = 491.9 + 0.0025 * np.arange(4001)
+    Bv, Gv = 4000.0, 40.0
+    I = np.full(wl.size, 1000.0)
+    V = np.zeros(wl.size)
+    u = math.sqrt(2 * sc.k * T / (MASS_U * sc.atomic_mass))
+    for lam0, area in ((492.1931, -25.0), (501.5678, -35.0)):
+        dop, d = lam0 * u / sc.c, 4.6686e-13 * (lam0 * 10) ** 2 * Bv * 0.1
+        g = math.radians(Gv)
+        pb, pp, pr = (profile(wl, lam0 + s_ * d, dop, GAMMA) for s_ in (-1, 0, 1))
+        I += area * (pp * math.sin(g) ** 2 / 2 + (pb + pr) * (1 + math.cos(g) ** 2) / 4)
+        V += area * (pr - pb) * math.cos(g) / 2
+    rng = np.random.default_rng(12)
+    I += rng.normal(0, 3.0, wl.size)
+    V += rng.normal(0, 3.0, wl.size)
+    table = os.path.join(tmp, "absorption.txt")
+    np.savetxt(table, np.column_stack([wl, I, V]), fmt="%.10f", header="wavelength_nm I V", comments="")
+    fitsfile = os.path.join(tmp, "absorption.fits")
+    hdu = fits.PrimaryHDU(np.vstack([I, 0 * I, 0 * I, V]))
+    h = hdu.header
+    h["CTYPE1"], h["CUNIT1"], h["CRVAL1"], h["CDELT1"], h["CRPIX1"] = "AWAV", "nm", wl[0], 0.0025, 1.0
+    h["CTYPE2"], h["CRVAL2"], h["CDELT2"], h["CRPIX2"] = "STOKES", 1.0, 1.0, 1.0
+    hdu.writeto(fitsfile)
+    answers = []
+    for path in (table, fitsfile):
+        r = run("diagnose", path, "--catalog", cat, "--lines", "HeI_4922,HeI_5016", "--instrument-fwhm", "3pm",
+                "--window", "0.15nm", "--json")
+        check(r.returncode == 0, "diagnose %s runs (%s)" % (os.path.basename(path), r.stderr.strip()[:200]))
+        answers.append(json.loads(r.stdout) if r.returncode == 0 else None)
+    if all(answers):
+        a, f = answers
+        check(abs(a["field_gauss"] - f["field_gauss"]) < 1e-3 * a["field_err_gauss"], "table and FITS agree")
+        check(a["degenerate"] is True and a["magnetic_required"] is True,
+              "near-equal z lambda^2 (4 %%): degenerate, detection from V (%s)" % a["verdict"])
+        check(abs(a["field_gauss"] - Bv) < 3 * a["field_err_gauss"],
+              "absorption: field %.0f +- %.0f G vs %.0f G" % (a["field_gauss"], a["field_err_gauss"], Bv))
+        check(a["inclination_deg"] < 90 and abs(a["inclination_deg"] - Gv) < 3 * a["inclination_err_deg"] + 1e-9,
+              "absorption: inclination %.1f +- %.1f deg vs %.0f (sign of V)" % (a["inclination_deg"], a["inclination_err_deg"], Gv))
+        check(all(x["cog_blos_gauss"] > 0 for x in a["cross_check"]), "centre-of-gravity B_LOS positive too")
+        print("     absorption I+V: B %.0f +- %.0f G (truth %.0f), inclination %.1f +- %.1f (truth %.0f)"
+              % (a["field_gauss"], a["field_err_gauss"], Bv, a["inclination_deg"], a["inclination_err_deg"], Gv))
 
     r = run("diagnose", mag, "--catalog", cat, "--lines", "HeI_5016,ArI_7504")
     check(r.returncode == 1 and "species" in r.stderr, "two species: exit 1 naming the species")
