@@ -66,12 +66,16 @@ LsTerm ParseLsTerm(const std::string& token, const std::string& level) {
     Fail(level, token,
          std::string("'") + token[i] + "' is not an L letter (expected one of S P D F G H I K L M N O Q)");
   ++i;
-  if (i < token.size() && (token[i] == 'o' || token[i] == '*')) ++i;  // odd-parity mark
+  Parity parity = Parity::kUnstated;
+  if (i < token.size() && (token[i] == 'o' || token[i] == '*' || token[i] == 'e')) {  // parity mark
+    parity = token[i] == 'e' ? Parity::kEven : Parity::kOdd;
+    ++i;
+  }
   const std::string j_text = token.substr(i);
   if (j_text.empty()) Fail(level, token, "missing J after the term letter");
   const int two_J = ParseHalfInteger(j_text);
   if (two_J < 0) Fail(level, token, "J '" + j_text + "' is not a non-negative integer or n/2 with n odd");
-  LsTerm term{multiplicity - 1, L, two_J};
+  LsTerm term{multiplicity - 1, L, two_J, parity};
   if (!InTriangle(2 * L, term.two_S, two_J))
     Fail(level, token,
          "J = " + HalfIntegerText(two_J) + " cannot be reached from L = " + std::to_string(L) +
@@ -181,6 +185,15 @@ Level ParseLevel(const std::string& text) {
     level.two_J = level.term.two_J;
   }
   return level;
+}
+
+std::string ElectricDipoleParityProblem(const Level& lower, const Level& upper) {
+  auto parity = [](const Level& l) { return l.coupling == Coupling::kLS ? l.term.parity : Parity::kUnstated; };
+  const Parity a = parity(lower), b = parity(upper);
+  if (a == Parity::kUnstated || b == Parity::kUnstated || a != b) return "";
+  const char* which = a == Parity::kOdd ? "odd" : "even";
+  return "'" + lower.text + "' -> '" + upper.text + "': both levels are " + which +
+         "; an electric-dipole line needs a parity change (Laporte's rule) -- check the parity marks";
 }
 
 }  // namespace zeeline

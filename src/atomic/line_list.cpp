@@ -7,6 +7,7 @@
 #include <map>
 #include <sstream>
 
+#include "core/utf8_bom.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
 
@@ -48,7 +49,7 @@ const char* const kOptional[] = {"g_lower", "g_upper", "mass_amu", "einstein_A",
 std::vector<LineEntry> ParseLineList(const std::string& text, const std::string& origin) {
   std::vector<LineEntry> out;
   std::map<std::string, std::size_t> column;
-  std::istringstream in(text);
+  std::istringstream in(WithoutUtf8Bom(text));
   std::string raw;
   int line_no = 0;
   bool have_header = false;

@@ -12,12 +12,15 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/line_selection.hpp"
+#include "cli/output_paths.hpp"
 #include "io/pattern_sweep_plot.hpp"
 #include "synth/profile_plot.hpp"
 #include "zeeline/atomic/lande.hpp"
 #include "zeeline/atomic/level.hpp"
 #include "zeeline/atomic/line_list.hpp"
 #include "zeeline/atomic/paschen_back.hpp"
+#include "zeeline/atomic/sigma_group.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
@@ -151,6 +154,7 @@ void WriteReportJson(JsonWriter& w, const LineReport& r, const std::optional<dou
   w.Key("components").BeginArray();
   for (const auto& c : r.pattern.components) {
     w.BeginObject().Key("Mu").Value(c.M_upper).Key("Ml").Value(c.M_lower).Key("q").Value(c.q);
+    w.Key("group").Value(SigmaGroupLabel(c.q));
     w.Key("shift").Value(c.shift_lorentz).Key("strength").Value(c.strength).EndObject();
   }
   w.EndArray();
@@ -181,23 +185,24 @@ void PrintReportText(const LineReport& r, const std::optional<double>& field_gau
   std::printf("linear breakdown field: %s\n", BreakdownText(r.regime.linear_breakdown_gauss).c_str());
   std::optional<double> unit_nm;
   if (r.wavelength_nm && field_gauss) unit_nm = LorentzUnit_nm(*r.wavelength_nm, *field_gauss);
-  std::printf("  %-6s %6s %6s %12s %10s", "group", "M_u", "M_l", "shift[L.u.]", "strength");
+  std::printf("  %-7s %6s %6s %12s %10s", "group", "M_u", "M_l", "shift[L.u.]", "strength");
   if (unit_nm) std::printf(" %14s", "shift[pm]");
   std::printf("\n");
   for (const auto& c : r.pattern.components) {
-    const char* group = c.q == 0 ? "pi" : (c.q > 0 ? "sig_r" : "sig_b");
-    std::printf("  %-6s %6s %6s %12.6f %10.6f", group, HalfIntegerText(static_cast<int>(2 * c.M_upper)).c_str(),
+    const char* group = SigmaGroupLabel(c.q);
+    std::printf("  %-7s %6s %6s %12.6f %10.6f", group, HalfIntegerText(static_cast<int>(2 * c.M_upper)).c_str(),
                 HalfIntegerText(static_cast<int>(2 * c.M_lower)).c_str(), c.shift_lorentz, c.strength);
     if (unit_nm) std::printf(" %14.6f", c.shift_lorentz * *unit_nm * 1e3);
     std::printf("\n");
   }
-  if (unit_nm && !mixed) {
-    std::printf("Lorentz unit at %.6f nm, %.1f G: %.6e nm; sigma centroid shift g_eff x unit = %.6e nm\n",
-                *r.wavelength_nm, *field_gauss, *unit_nm, *unit_nm * r.pattern.g_eff);
+  if (unit_nm && !mixed) {  // pm like the table above (docs/cli.md: no pm/nm mix)
+    std::printf("at %.6f nm and %.1f G: lorentz_shift %.6f pm, sigma_shift (g_eff x lorentz_shift) %.6f pm\n",
+                *r.wavelength_nm, *field_gauss, *unit_nm * 1e3, *unit_nm * r.pattern.g_eff * 1e3);
   } else if (unit_nm) {
-    std::printf("Lorentz unit at %.6f nm, %.1f G: %.6e nm; half sigma-centroid separation %.6f x unit = %.6e nm\n",
-                *r.wavelength_nm, *field_gauss, *unit_nm, SigmaHalfSeparation(r.pattern),
-                *unit_nm * SigmaHalfSeparation(r.pattern));
+    std::printf("at %.6f nm and %.1f G: lorentz_shift %.6f pm, half sigma-centroid separation %.6f x lorentz_shift "
+                "= %.6f pm\n",
+                *r.wavelength_nm, *field_gauss, *unit_nm * 1e3, SigmaHalfSeparation(r.pattern),
+                *unit_nm * SigmaHalfSeparation(r.pattern) * 1e3);
   }
   if (mixed)
     std::printf("caution: fields of a tesla and more come from strong magnets; follow your institution's rules for\n"
@@ -209,8 +214,8 @@ void RunFieldSweep(const LineArgs& a, const Level& lower, const Level& upper, co
                    const TermEnergies& el, const TermEnergies& eu, const std::optional<double>& wavelength_nm,
                    bool from_catalog) {
   const std::vector<double> fields = ParseFieldRange(a.fields);
-  if (!a.png.empty() && !a.overwrite && std::filesystem::exists(a.png))
-    throw OutputError(a.png + " exists; use --overwrite to replace it");
+  CheckOutputFile(a.png, a.overwrite, "--png");  // before any work (docs/cli.md, "Outputs")
+  RequireParityChange(lower, upper, from_catalog ? "" : "--lower/--upper ");
   std::vector<LineReport> rows;
   for (double b : fields) {
     LineReport r;
@@ -233,6 +238,7 @@ void RunFieldSweep(const LineArgs& a, const Level& lower, const Level& upper, co
       w.Key("components").BeginArray();
       for (const auto& c : rows[i].pattern.components) {
         w.BeginObject().Key("Mu").Value(c.M_upper).Key("Ml").Value(c.M_lower).Key("q").Value(c.q);
+        w.Key("group").Value(SigmaGroupLabel(c.q));
         w.Key("shift").Value(c.shift_lorentz).Key("strength").Value(c.strength).EndObject();
       }
       w.EndArray().EndObject();
@@ -299,7 +305,7 @@ void RunLine(const LineArgs& a) {
   const LandeOptions options = MakeLandeOptions(a.gs);
   ZeemanRegimeFromString(a.regime);  // refuse a bad --regime before any work
   std::optional<double> field_gauss;
-  if (!a.field.empty()) field_gauss = ParseField_gauss(a.field);
+  if (!a.field.empty()) field_gauss = ParseFieldStrength_gauss(a.field, "--field");
   if (!a.fields.empty() && field_gauss) throw OptionError("give either --field or --fields, not both");
   if (!a.png.empty() && a.fields.empty()) throw OptionError("--png draws the --fields sweep; give --fields FROM:TO[:N]");
   TermEnergies el, eu;
@@ -330,6 +336,7 @@ void RunLine(const LineArgs& a) {
       r.lower_text = e.lower.text;
       r.upper_text = e.upper.text;
       r.wavelength_nm = e.wavelength_nm;
+      RequireParityChange(e.lower, e.upper, a.catalog + ":" + std::to_string(e.source_line) + ": ");
       try {
         ChooseRegime(r, e.lower, e.upper, a, options, field_gauss, e.lower_term_energies, e.upper_term_energies,
                      true);
@@ -349,6 +356,7 @@ void RunLine(const LineArgs& a) {
     r.upper_text = upper.text;
     if (!a.wavelength.empty()) r.wavelength_nm = ParseWavelength_nm(a.wavelength);
     if (!a.fields.empty()) return RunFieldSweep(a, lower, upper, options, el, eu, r.wavelength_nm, false);
+    RequireParityChange(lower, upper, "--lower/--upper ");
     ChooseRegime(r, lower, upper, a, options, field_gauss, el, eu, false);
     reports.push_back(r);
   }
@@ -407,7 +415,7 @@ void AddLineCommand(CLI::App& app) {
   cmd->add_option("--lower", args->lower, "lower level designation");
   cmd->add_option("--upper", args->upper, "upper level designation");
   cmd->add_option("--wavelength", args->wavelength, "rest wavelength with unit, e.g. 630.2494nm or 6302.494A");
-  cmd->add_option("--field", args->field, "field strength with unit, e.g. 1000G, 1.2kG, 0.1T");
+  cmd->add_option("--field", args->field, "field strength >= 0 with unit, e.g. 1000G, 1.2kG, 0.1T");
   cmd->add_option("--catalog", args->catalog, "line list file (docs/line_list.md); reports every line");
   cmd->add_option("--line", args->line, "with --catalog: report only this line");
   cmd->add_option("--gs", args->gs, "electron spin g-factor (default CODATA; 2 = textbook)");

@@ -8,6 +8,7 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/output_paths.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/wavelength_frame.hpp"
 #include "zeeline/io/cube_reader.hpp"
@@ -143,6 +144,7 @@ void RunView(const ViewArgs& a) {
   }
   const std::string problem = q.Validate();
   if (!problem.empty()) throw OptionError("--percentiles: " + problem);
+  CheckOutputDirectory(a.out_dir, "-o");
   for (const auto& t : RenderQuicklooks(a.maps, a.out_dir, q)) std::printf("%s\n", t.c_str());
 }
 
@@ -177,9 +179,8 @@ std::vector<std::string> RenderQuicklooks(const std::string& maps_path, const st
     if (!existing.empty()) throw OutputError("would overwrite " + existing + " (use --overwrite)");
   }
   const fs::path dir = fs::path(sheet).parent_path();
-  std::error_code ec;
-  if (!dir.empty()) fs::create_directories(dir, ec);
-  if (ec) throw OutputError("cannot create output directory '" + dir.string() + "': " + ec.message());
+  CheckOutputDirectory(dir.string(), "quicklook directory");
+  CreateOutputDirectory(dir.string(), "quicklook directory");
 
   std::vector<QuicklookMap> maps;
   for (const auto& h : hdus) maps.push_back(QuicklookFromHdu(h));

@@ -1,8 +1,6 @@
 // `zeeline map`: field maps from a Stokes cube (a thin layer over maps/field_maps.hpp and io/).
 #include <unistd.h>
 
-#include <atomic>
-#include <csignal>
 #include <cstdio>
 #include <filesystem>
 #include <iostream>
@@ -12,7 +10,9 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "cli/interrupt.hpp"
 #include "cli/line_selection.hpp"
+#include "cli/output_paths.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
 #include "zeeline/io/air_vacuum.hpp"
@@ -23,9 +23,6 @@
 
 namespace zeeline::cli {
 namespace {
-
-std::atomic<bool> g_interrupted{false};
-extern "C" void OnInterrupt(int) { g_interrupted.store(true); }
 
 struct MapArgs {
   std::string cube, output, method = "auto", window, continuum_exclude, transverse = "core", core, wing_start;
@@ -156,8 +153,8 @@ std::string JoinArgs(int argc, char** argv) {
 void RunMap(const MapArgs& a) {
   namespace fs = std::filesystem;
   if (a.output.empty()) throw OptionError("-o MAPS.fits is required");
-  if (fs::exists(a.output) && !a.overwrite)
-    throw OutputError(a.output + ": exists; use --overwrite to replace it (nothing was written)");
+  CheckOutputFile(a.output, a.overwrite, "-o");  // before any work (docs/cli.md, "Outputs")
+  CheckOutputDirectory(a.png_dir, "--png");
   if (!a.png_dir.empty() && !a.overwrite) {
     // Refuse up front (before any work) if a quicklook this run would write already exists.
     std::vector<std::string> names{map_names::kMethod, map_names::kQuality};
@@ -211,7 +208,8 @@ void RunMap(const MapArgs& a) {
   run.fingerprint = fp.str();
   run.resume = a.resume;
   if (a.resume) run.checkpoint_path = a.output + ".checkpoint";
-  run.cancel = &g_interrupted;
+  InterruptGuard interrupt;  // Ctrl-C stops the run between tiles
+  run.cancel = interrupt.flag();
   const bool show_progress = !a.quiet && isatty(STDERR_FILENO);
   if (show_progress) {
     run.progress = [](long done, long total) {
@@ -224,19 +222,13 @@ void RunMap(const MapArgs& a) {
     };
   }
   if (!info.stokes.empty() && info.StokesIndex(StokesParameter::kQ) < 0 && !a.quiet)
-    std::fprintf(stderr, "zeeline: note: %s has no Stokes Q/U; writing line-of-sight maps only\n", a.cube.c_str());
+    std::fprintf(stderr,
+                 "zeeline: note: %s has no Stokes Q/U: no B_TRANS or B_AZIM; B_LOS and V_LOS everywhere, B_TOTAL "
+                 "and B_INCL only where the sigma groups are resolved (split)\n",
+                 a.cube.c_str());
 
-  g_interrupted.store(false);
-  auto previous = std::signal(SIGINT, OnInterrupt);
   FieldMaps maps;
-  RunStatus status;
-  try {
-    status = ComputeFieldMaps(reader, o, run, maps);
-  } catch (...) {
-    std::signal(SIGINT, previous);
-    throw;
-  }
-  std::signal(SIGINT, previous);
+  const RunStatus status = ComputeFieldMaps(reader, o, run, maps);
   if (status == RunStatus::kCancelled) {
     std::fprintf(stderr, "\nzeeline: interrupted; no map file was written%s\n",
                  a.resume ? (" (checkpoint " + run.checkpoint_path + " kept for --resume)").c_str() : "");
@@ -290,7 +282,11 @@ void RunMap(const MapArgs& a) {
                                    std::to_string(l.relative_strength));
   if (o.disambiguate)
     w.provenance.history.push_back("B_AZIM disambiguated (acute angle to the potential field), range [0, 360) deg");
-  WriteFieldMaps(a.output, hdus, info.spatial_wcs_header, w);
+  try {
+    WriteFieldMaps(a.output, hdus, info.spatial_wcs_header, w);
+  } catch (const FitsError& e) {
+    throw OutputError(e.what());  // checked up front; this is a failure while writing (exit 3)
+  }
   if (a.resume) fs::remove(run.checkpoint_path, ec);
   std::vector<std::string> pngs;
   if (!a.png_dir.empty()) {
@@ -339,7 +335,7 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("--transverse", a->transverse, "weak-field B_TRANS region: core | wings | core+wings | whole")->capture_default_str();
   cmd->add_option("--core", a->core, "weak-field core half-width, e.g. 0.006nm");
   cmd->add_option("--wing-start", a->wing_start, "weak-field wing region start from line centre, e.g. 0.008nm");
-  cmd->add_option("--weak-ratio", a->weak_ratio, "auto: splitting/width below which wfa is used")->capture_default_str();
+  cmd->add_option("--weak-ratio", a->weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w below this (w = 1/e half-width of the line), docs/methods.md")->capture_default_str();
   cmd->add_option("--resolution-ratio", a->resolution_ratio, "splitting/width above which sigma groups are resolved")->capture_default_str();
   cmd->add_option("--detection-sigma", a->detection_sigma, "LOW_SIGNAL below this many sigma")->capture_default_str();
   cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();

@@ -13,6 +13,7 @@
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
 #include "cli/line_selection.hpp"
+#include "cli/output_paths.hpp"
 #include "synth/profile_plot.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
@@ -29,7 +30,7 @@ struct MeasureArgs {
   std::optional<double> g_eff, damping;
   bool emission = false, absorption = false, json = false, overwrite = false;
   int free_components = 0, realisations = 200, v_sign = 1;
-  double noise = 0.0, weak_ratio = 0.3, resolution_ratio = 1.0;
+  double noise = 0.0, weak_ratio = MeasureOptions{}.weak_ratio, resolution_ratio = 1.0;
 };
 
 const char* kSafetyNote =
@@ -46,6 +47,13 @@ std::string Num(double v, const char* format = "%.6g") {
 std::string PlusMinus(const Measured& m, const char* format = "%.4g") {
   if (!m.defined()) return "n/a";
   return Num(m.value, format) + " +- " + Num(m.err, "%.2g");
+}
+
+// The text summary gives wavelength offsets, widths and areas in pm (absolute wavelengths in nm); JSON
+// keeps nm everywhere (docs/cli.md).
+std::string PlusMinusPm(const Measured& m_nm, const char* format = "%.4g") {
+  if (!m_nm.defined()) return "n/a";
+  return Num(m_nm.value * 1e3, format) + " +- " + Num(m_nm.err * 1e3, "%.2g");
 }
 
 // JSON: "name_unit": value, "name_err_unit": err (unit may be empty).
@@ -85,7 +93,7 @@ void WriteJson(std::ostream& out, const Spectrum1D& s, const SelectedLine& line,
   j.Key("line").BeginObject();
   j.Key("description").Value(line.description);
   j.Key("rest_wavelength_nm").Value(m.rest_wavelength_nm).Key("g_eff").Value(m.g_eff).Key("G").Value(m.G);
-  j.Key("lorentz_unit_per_gauss_nm").Value(LorentzUnit_nm(m.rest_wavelength_nm, 1.0));
+  j.Key("lorentz_shift_per_gauss_nm").Value(LorentzUnit_nm(m.rest_wavelength_nm, 1.0));
   j.EndObject();
   j.Key("sense").Value(ToString(m.sense)).Key("sense_detected").Value(m.sense_detected);
   j.Key("window_halfwidth_nm").Value(m.window_halfwidth_nm);
@@ -211,19 +219,21 @@ std::vector<std::string> Summary(const Spectrum1D& s, const SelectedLine& line, 
   add("characteristics (errors from noise realisations):");
   if (h.has_v) {
     add("  V lobes: blue " + PlusMinus(h.v_blue_amplitude) + ", red " + PlusMinus(h.v_red_amplitude));
-    add("  V areas: blue " + PlusMinus(h.v_blue_area_nm) + " nm, red " + PlusMinus(h.v_red_area_nm) + " nm");
+    add("  V areas: blue " + PlusMinusPm(h.v_blue_area_nm) + " pm, red " + PlusMinusPm(h.v_red_area_nm) + " pm");
     add("  asymmetry: amplitude " + PlusMinus(h.amplitude_asymmetry, "%.3f") + ", area " +
         PlusMinus(h.area_asymmetry, "%.3f"));
-    add("  zero crossing " + PlusMinus(h.zero_crossing_nm, "%.5f") + " nm = " +
+    Measured zc_offset = h.zero_crossing_nm;
+    zc_offset.value -= l0;
+    add("  zero crossing " + PlusMinusPm(zc_offset, "%+.4f") + " pm from rest = " +
         PlusMinus(h.zero_crossing_vlos_kms, "%.3f") + " km/s");
-    add("  V peak separation " + Num(h.v_peak_separation_nm.value * 1e3, "%.4g") + " +- " +
-        Num(h.v_peak_separation_nm.err * 1e3, "%.2g") + " pm, NCP " + PlusMinus(h.net_circular_polarisation, "%.4f"));
+    add("  V peak separation " + PlusMinusPm(h.v_peak_separation_nm) + " pm, NCP " +
+        PlusMinus(h.net_circular_polarisation, "%.4f"));
   } else {
     add("  no Stokes V");
   }
   if (h.has_qu) {
     add("  linear pol. " + PlusMinus(h.linear_polarisation, "%.4f") + " (of line), per Ic " +
-        PlusMinus(h.linear_polarisation_per_continuum_nm) + " nm");
+        PlusMinusPm(h.linear_polarisation_per_continuum_nm) + " pm");
     add("  angle (integrated) " + PlusMinus(h.linear_polarisation_angle_deg, "%.1f") + " deg, core " +
         PlusMinus(h.linear_polarisation_angle_core_deg, "%.1f") + " deg");
   }
@@ -333,10 +343,8 @@ void WritePng(const std::string& path, const Spectrum1D& s, const SelectedLine& 
 }
 
 void RunMeasure(const MeasureArgs& a) {
-  namespace fs = std::filesystem;
-  for (const std::string& out : {a.png, a.json_file})
-    if (!out.empty() && fs::exists(out) && !a.overwrite)
-      throw OutputError(out + ": exists; use --overwrite to replace it (nothing was written)");
+  CheckOutputFile(a.png, a.overwrite, "--png");  // before any work (docs/cli.md, "Outputs")
+  CheckOutputFile(a.json_file, a.overwrite, "--json-file");
   if (a.emission && a.absorption) throw OptionError("--emission and --absorption exclude each other");
 
   // The line: levels (or a catalog entry), or a bare wavelength with --g-eff for free components.
@@ -424,7 +432,7 @@ void AddMeasureCommand(CLI::App& app) {
   cmd->add_option("--damping", a->damping, "keep the Voigt damping fixed at this value (Doppler units; default: fitted)");
   cmd->add_option("--window", a->window, "half-width of the line window, e.g. 0.05nm (default: from the line)");
   cmd->add_option("--noise", a->noise, "noise in units of the continuum (default: measured outside the window)");
-  cmd->add_option("--weak-ratio", a->weak_ratio, "wfa valid when g_eff*dlambda_B/width is below this")->capture_default_str();
+  cmd->add_option("--weak-ratio", a->weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w below this (w = 1/e half-width of the line), docs/methods.md")->capture_default_str();
   cmd->add_option("--resolution-ratio", a->resolution_ratio,
                   "sigma separation / component FWHM above which the components count as resolved")->capture_default_str();
   cmd->add_option("--realisations", a->realisations, "noise realisations for the characteristics' errors")->capture_default_str();

@@ -8,6 +8,8 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/line_selection.hpp"
+#include "cli/output_paths.hpp"
 #include "synth/profile_plot.hpp"
 #include "zeeline/atomic/lande.hpp"
 #include "zeeline/atomic/level.hpp"
@@ -20,7 +22,7 @@ namespace zeeline::cli {
 namespace {
 
 struct ProfileArgs {
-  std::string lower, upper, wavelength;
+  LineSelectionArgs line;
   std::string field = "0G";
   double inclination_deg = 0.0;
   double azimuth_deg = 0.0;
@@ -37,25 +39,37 @@ struct ProfileArgs {
   std::string instrument_fwhm;
   std::string macroturbulence;
   std::string voigt = "fast";
-  std::optional<double> gs;
   std::string png;
   bool overwrite = false;
   bool json = false;
 };
 
-void RunProfile(const ProfileArgs& a) {
-  LandeOptions lande;
-  if (a.gs) lande.g_spin = *a.gs;
-  const std::string lande_problem = lande.Validate();
-  if (!lande_problem.empty()) throw OptionError("--gs: " + lande_problem);
+// The option of `profile` for each model parameter, to name it in messages.
+const char* ProfileOption(MeParam p) {
+  switch (p) {
+    case MeParam::kField: return "--field";
+    case MeParam::kInclination: return "--inclination";
+    case MeParam::kAzimuth: return "--azimuth";
+    case MeParam::kVlos: return "--vlos";
+    case MeParam::kDopplerWidth: return "--doppler-width";
+    case MeParam::kDamping: return "--damping";
+    case MeParam::kEta0: return "--eta0";
+    case MeParam::kS0: return "--s0";
+    case MeParam::kS1: return "--s1";
+    case MeParam::kFill: return "--fill";
+  }
+  return "?";
+}
 
+void RunProfile(const ProfileArgs& a) {
+  const SelectedLine selected = ResolveLine(a.line);
   MeLine line;
-  line.wavelength_nm = ParseWavelength_nm(a.wavelength);
-  if (!(line.wavelength_nm > 0.0)) throw OptionError("--wavelength " + a.wavelength + " must be positive");
-  line.pattern = ComputeZeemanPattern(ParseLevel(a.lower), ParseLevel(a.upper), lande);
+  line.wavelength_nm = selected.rest_wavelength_nm;
+  if (!(line.wavelength_nm > 0.0)) throw OptionError("--wavelength " + a.line.wavelength + " must be positive");
+  line.pattern = selected.pattern;
 
   MeParameters p;
-  p.field_gauss = ParseField_gauss(a.field);
+  p.field_gauss = ParseFieldStrength_gauss(a.field, "--field");
   p.inclination_deg = a.inclination_deg;
   p.azimuth_deg = a.azimuth_deg;
   p.vlos_kms = ParseVelocity_kms(a.vlos);
@@ -66,7 +80,12 @@ void RunProfile(const ProfileArgs& a) {
   p.s1 = a.s1;
   p.fill = a.fill;
   const std::string problem = p.Validate();
-  if (!problem.empty()) throw OptionError("model parameter " + problem);
+  if (!problem.empty()) {
+    std::string option;
+    for (int k = 0; k < kMeParamCount; ++k)
+      if (problem.rfind(MeParamName(static_cast<MeParam>(k)), 0) == 0) option = ProfileOption(static_cast<MeParam>(k));
+    throw OptionError(option + ": model parameter " + problem);
+  }
 
   if (a.points < 2 || a.points > 10000000)
     throw OptionError("--points " + std::to_string(a.points) + " is outside the allowed range [2, 1e7]");
@@ -81,8 +100,7 @@ void RunProfile(const ProfileArgs& a) {
   const std::string synth_problem = o.Validate();
   if (!synth_problem.empty()) throw OptionError(synth_problem);
 
-  if (!a.png.empty() && !a.overwrite && std::filesystem::exists(a.png))
-    throw OutputError(a.png + " exists; use --overwrite to replace it");
+  CheckOutputFile(a.png, a.overwrite, "--png");  // before the synthesis (docs/cli.md, "Outputs")
 
   StokesSynthesizer synth({line}, UniformWavelengthGrid(line.wavelength_nm, range_nm, a.points), o);
   StokesArray stokes;
@@ -96,7 +114,7 @@ void RunProfile(const ProfileArgs& a) {
     plot.centre_nm = line.wavelength_nm;
     char title[256];
     std::snprintf(title, sizeof title, "%s - %s  %.4f nm   B = %.0f G  incl = %.1f deg  azi = %.1f deg  vlos = %.2f km/s",
-                  a.lower.c_str(), a.upper.c_str(), line.wavelength_nm, p.field_gauss, p.inclination_deg,
+                  selected.lower_text.c_str(), selected.upper_text.c_str(), line.wavelength_nm, p.field_gauss, p.inclination_deg,
                   p.azimuth_deg, p.vlos_kms);
     plot.title = title;
     try {
@@ -114,17 +132,25 @@ void RunProfile(const ProfileArgs& a) {
     j.Key("I").Array(column(0)).Key("Q").Array(column(1)).Key("U").Array(column(2)).Key("V").Array(column(3));
     j.Key("continuum").Value(continuum);
     j.Key("g_eff").Value(line.pattern.g_eff).Key("G").Value(line.pattern.G);
-    j.Key("lorentz_unit_nm").Value(LorentzUnit_nm(line.wavelength_nm, p.field_gauss));
+    // The key family of `zeeline line` (docs/cli.md): the field given, one Lorentz unit, g_eff times it.
+    const double shift_nm = LorentzUnit_nm(line.wavelength_nm, p.field_gauss);
+    j.Key("field_gauss").Value(p.field_gauss);
+    j.Key("lorentz_shift_nm").Value(shift_nm);
+    j.Key("sigma_shift_nm").Value(shift_nm * line.pattern.g_eff);
     j.EndObject();
     std::cout << "\n";
     return;
   }
-  std::printf("# Milne-Eddington Stokes profiles, %s - %s at %.6f nm (g_eff = %.4f, G = %.4f)\n", a.lower.c_str(),
-              a.upper.c_str(), line.wavelength_nm, line.pattern.g_eff, line.pattern.G);
+  std::printf("# Milne-Eddington Stokes profiles, %s - %s at %.6f nm (g_eff = %.4f, G = %.4f)\n",
+              selected.lower_text.c_str(), selected.upper_text.c_str(), line.wavelength_nm, line.pattern.g_eff,
+              line.pattern.G);
   std::printf("# B = %.2f G, inclination = %.3f deg, azimuth = %.3f deg, vlos = %.4f km/s, Doppler width = %.6g nm\n",
               p.field_gauss, p.inclination_deg, p.azimuth_deg, p.vlos_kms, p.doppler_width_nm);
   std::printf("# damping = %.4g, eta0 = %.4g, s0 = %.4g, s1 = %.4g, mu = %.4g, fill = %.4g, continuum = %.6g\n",
               p.damping, p.eta0, p.s0, p.s1, a.mu, p.fill, continuum);
+  const double shift_nm = LorentzUnit_nm(line.wavelength_nm, p.field_gauss);
+  std::printf("# lorentz_shift_nm = %.6e, sigma_shift_nm = %.6e (g_eff x lorentz_shift_nm)\n", shift_nm,
+              shift_nm * line.pattern.g_eff);
   std::printf("%16s %14s %14s %14s %14s\n", "wavelength_nm", "I", "Q", "U", "V");
   for (Eigen::Index i = 0; i < w.size(); ++i)
     std::printf("%16.8f %14.7e %14.7e %14.7e %14.7e\n", w[i], stokes(i, 0), stokes(i, 1), stokes(i, 2), stokes(i, 3));
@@ -142,12 +168,12 @@ void AddProfileCommand(CLI::App& app) {
       "g_eff > 0 and a field toward the observer.\n"
       "Examples:\n"
       "  zeeline profile --lower 5P1 --upper 5D0 --wavelength 630.2494nm --field 1200G --inclination 30\n"
+      "  zeeline profile --line FeI_6302 --catalog demo_maps/lines.csv --field 800G --json\n"
       "  zeeline profile --lower 5P2 --upper 5D2 --wavelength 630.1501 --field 1.5kG --inclination 60 \\\n"
       "      --azimuth 20 --vlos 0.5 --instrument-fwhm 2.5pm --png stokes.png --json");
-  cmd->add_option("--lower", args->lower, "lower level designation, e.g. 5P1")->required();
-  cmd->add_option("--upper", args->upper, "upper level designation, e.g. 5D0")->required();
-  cmd->add_option("--wavelength", args->wavelength, "rest wavelength with unit (nm if bare)")->required();
-  cmd->add_option("--field", args->field, "field strength with unit (G if bare)")->capture_default_str();
+  AddLineSelectionOptions(cmd, args->line, "the profile is computed in this frame (default vacuum; a catalog line: its own)");
+  cmd->add_option("--field", args->field, "field strength >= 0 with unit (G if bare); direction from --inclination")
+      ->capture_default_str();
   cmd->add_option("--inclination", args->inclination_deg, "inclination to the line of sight [deg], 0 = toward observer")
       ->capture_default_str();
   cmd->add_option("--azimuth", args->azimuth_deg, "azimuth counter-clockwise from +x [deg]")->capture_default_str();
@@ -166,7 +192,6 @@ void AddProfileCommand(CLI::App& app) {
   cmd->add_option("--points", args->points, "number of wavelength samples")->capture_default_str();
   cmd->add_option("--instrument-fwhm", args->instrument_fwhm, "Gaussian instrument profile FWHM with unit");
   cmd->add_option("--macroturbulence", args->macroturbulence, "Gaussian macroturbulence, 1/e half-width (km/s)");
-  cmd->add_option("--gs", args->gs, "electron spin g-factor (default CODATA; 2 = textbook)");
   cmd->add_option("--voigt", args->voigt, "Voigt evaluation: fast (Humlicek W4) or reference (libcerf)")
       ->capture_default_str();
   cmd->add_option("--png", args->png, "also draw I, Q/Ic, U/Ic, V/Ic into this PNG file");

@@ -9,7 +9,9 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "cli/interrupt.hpp"
 #include "cli/line_selection.hpp"
+#include "cli/output_paths.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
 #include "zeeline/io/field_map_writer.hpp"
@@ -83,10 +85,8 @@ Scene SceneFromParameterMaps(const std::string& path) {
 }
 
 void RunSimulate(const SimulateArgs& a) {
-  namespace fs = std::filesystem;
   if (a.demo == !a.params.empty()) throw OptionError("give exactly one of --demo or --params PARAMS.fits");
-  if (fs::exists(a.output) && !a.overwrite)
-    throw OutputError(a.output + ": exists; use --overwrite to replace it (nothing was written)");
+  CheckOutputFile(a.output, a.overwrite, "-o");  // before any work (docs/cli.md, "Outputs")
   const SelectedLine line = ResolveLine(a.line);
   const WavelengthFrame frame = line.frame.value_or(WavelengthFrame::kVacuum);
   if (a.points < 16 || a.points > 100000) throw OptionError("--points = " + std::to_string(a.points) + " must be in [16, 100000]");
@@ -110,6 +110,8 @@ void RunSimulate(const SimulateArgs& a) {
   no.noise_rel = a.noise;
   no.seed = a.seed;
   no.threads = a.threads;
+  InterruptGuard interrupt;  // Ctrl-C stops the synthesis; nothing is written
+  no.cancel = interrupt.flag();
 
   MeLine me_line;
   me_line.wavelength_nm = line.rest_wavelength_nm;
@@ -120,6 +122,10 @@ void RunSimulate(const SimulateArgs& a) {
   cube.ny = scene.ny;
   cube.stokes = {StokesParameter::kI, StokesParameter::kQ, StokesParameter::kU, StokesParameter::kV};
   cube.values = SynthesizeScene(scene, {me_line}, grid, so, no);
+  if (interrupt.interrupted()) {
+    std::fprintf(stderr, "\nzeeline: interrupted; no cube was written (%s)\n", a.output.c_str());
+    std::exit(130);
+  }
 
   // Truth maps of the primary atmosphere (and the weight of two-component pixels). TRUE_B_AZIM is the
   // direction of the horizontal field on [0, 360), as a disambiguated B_AZIM map reports it. TRUE_B_LOS is
@@ -179,8 +185,12 @@ void RunSimulate(const SimulateArgs& a) {
   w.provenance.keywords.push_back({"ZLSEED", static_cast<long long>(a.seed), "noise seed"});
   w.provenance.keywords.push_back({"ZLMU", a.mu, "cos(heliocentric angle)"});
   std::vector<double> wl(grid.data(), grid.data() + grid.size());
-  WriteStokesCube(a.output, cube, wl, frame,
-                  MakeHelioprojectiveWcs(scene.nx, scene.ny, a.pixel_arcsec, a.x0_arcsec, a.y0_arcsec), extra, w);
+  const std::string wcs = MakeHelioprojectiveWcs(scene.nx, scene.ny, a.pixel_arcsec, a.x0_arcsec, a.y0_arcsec);
+  try {
+    WriteStokesCube(a.output, cube, wl, frame, wcs, extra, w);
+  } catch (const FitsError& e) {
+    throw OutputError(e.what());  // checked up front; this is a failure while writing (exit 3)
+  }
   if (!a.quiet)
     std::printf("cube: %s (%ld x %ld pixels, %d wavelengths %.5f-%.5f nm %s, Stokes IQUV, noise %.2g)\n",
                 a.output.c_str(), scene.nx, scene.ny, a.points, wl.front(), wl.back(), ToString(frame).c_str(), a.noise);

@@ -1,5 +1,6 @@
 #include "cli/line_selection.hpp"
 
+#include <cmath>
 #include <cstdio>
 
 #include "zeeline/atomic/line_list.hpp"
@@ -16,6 +17,19 @@ void AddLineSelectionOptions(CLI::App* cmd, LineSelectionArgs& a, const std::str
   cmd->add_option("--catalog", a.catalog, "line list file (docs/line_list.md)");
   cmd->add_option("--frame", a.frame, "air or vacuum: frame of --wavelength; " + frame_help);
   cmd->add_option("--gs", a.gs, "electron spin g-factor (default CODATA 2.00231930436; 2 = textbook)");
+}
+
+void RequireParityChange(const Level& lower, const Level& upper, const std::string& where) {
+  const std::string problem = ElectricDipoleParityProblem(lower, upper);
+  if (!problem.empty()) throw LevelParseError(where + problem);
+}
+
+double ParseFieldStrength_gauss(const std::string& text, const std::string& option) {
+  const double b = ParseField_gauss(text);
+  if (!(b >= 0.0) || !std::isfinite(b))
+    throw OptionError(option + " " + text + ": a field strength must be finite and >= 0; give its direction with "
+                      "the inclination (180 deg = pointing away from the observer)");
+  return b;
 }
 
 SelectedLine ResolveLine(const LineSelectionArgs& a) {
@@ -37,6 +51,7 @@ SelectedLine ResolveLine(const LineSelectionArgs& a) {
     s.rest_wavelength_nm = e.wavelength_nm;
     s.frame = e.frame;
     s.mass_amu = e.mass_amu;
+    RequireParityChange(e.lower, e.upper, a.catalog + ":" + std::to_string(e.source_line) + ": ");
     s.pattern = ComputeZeemanPattern(e.lower, e.upper, lande);
   } else {
     if (a.lower.empty() || a.upper.empty() || a.wavelength.empty())
@@ -44,7 +59,9 @@ SelectedLine ResolveLine(const LineSelectionArgs& a) {
     s.lower_text = a.lower;
     s.upper_text = a.upper;
     s.rest_wavelength_nm = ParseWavelength_nm(a.wavelength);
-    s.pattern = ComputeZeemanPattern(ParseLevel(a.lower), ParseLevel(a.upper), lande);
+    const Level lower = ParseLevel(a.lower), upper = ParseLevel(a.upper);
+    RequireParityChange(lower, upper, "--lower/--upper ");
+    s.pattern = ComputeZeemanPattern(lower, upper, lande);
   }
   if (!a.frame.empty()) s.frame = WavelengthFrameFromString(a.frame);
   char buf[256];

@@ -7,6 +7,7 @@
 
 #include <CLI/CLI.hpp>
 
+#include "zeeline/atomic/level.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/core/wavelength_frame.hpp"
 
@@ -28,6 +29,15 @@ struct SelectedLine {
 
 /// Adds the options to `cmd`; `frame_help` explains what the frame defaults to for this command.
 void AddLineSelectionOptions(CLI::App* cmd, LineSelectionArgs& args, const std::string& frame_help);
+
+/// Throws LevelParseError (prefixed by `where`) when both levels state the same parity
+/// (ElectricDipoleParityProblem): the one parity rule of every command that takes a line.
+void RequireParityChange(const Level& lower, const Level& upper, const std::string& where);
+
+/// A field strength |B| from the command line (`--field` of `line` and `profile`): units as in
+/// core/units.hpp; negative values are refused with an OptionError naming `option` (the one rule: a
+/// strength is >= 0, its direction is the inclination, docs/conventions.md).
+double ParseFieldStrength_gauss(const std::string& text, const std::string& option);
 
 /// Resolves the options (reads the catalog when given). Throws OptionError / LineListError /
 /// LevelParseError / UnitError with the offending value.

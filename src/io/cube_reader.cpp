@@ -135,8 +135,8 @@ void CubeReader::Impl::Open(const std::string& path) {
                     CfitsioMessage(status));
   }
   int hdu = 1;
-  fits_get_hdu_num(f, &hdu);
-  info.hdu = hdu;
+  fits_get_hdu_num(f, &hdu);  // cfitsio counts from 1
+  info.hdu = hdu - 1;         // messages and `info` use the file.fits[n] index (docs/fits.md)
   char extname[FLEN_VALUE] = {0};
   status = 0;
   if (fits_read_key(f, TSTRING, "EXTNAME", extname, nullptr, &status) == 0) info.extname = Trim(extname);

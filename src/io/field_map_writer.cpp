@@ -351,12 +351,12 @@ std::vector<ImageHdu> ReadImageHdus(const std::string& path) {
     int type = 0;
     status = 0;
     if (fits_movabs_hdu(f, i, &type, &status))
-      throw FitsError("'" + path + "' HDU " + std::to_string(i) + ": " + CfitsioMessage(status));
+      throw FitsError("'" + path + "' HDU " + std::to_string(i - 1) + ": " + CfitsioMessage(status));
     if (type != IMAGE_HDU) continue;
     int naxis = 0;
     fits_get_img_dim(f, &naxis, &status);
     if (naxis != 2) continue;
-    const std::string where = "'" + path + "' HDU " + std::to_string(i);
+    const std::string where = "'" + path + "' HDU " + std::to_string(i - 1);  // file.fits[n] index
     long long nax[2] = {0, 0};
     int bitpix = 0;
     fits_get_img_sizell(f, 2, nax, &status);

@@ -6,6 +6,7 @@
 
 #include <Eigen/Dense>
 
+#include "zeeline/atomic/sigma_group.hpp"
 #include "zeeline/core/constants.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
@@ -447,7 +448,7 @@ ComponentFitResult FitZeemanComponents(const PixelSpectrum& s, double noise_I, c
     r.field_gauss = p[1];
     r.field_err_gauss = err(1);
     r.has_field = true;
-    const char* labels[3] = {"sigma_b", "pi", "sigma_r"};
+    const char* labels[3] = {SigmaGroupLabel(-1), SigmaGroupLabel(0), SigmaGroupLabel(+1)};
     double mean_shift[3] = {0.0, 0.0, 0.0}, total[3] = {0.0, 0.0, 0.0};
     for (const Line& l : lines) {
       mean_shift[l.group] += l.strength * l.shift_lorentz;

@@ -253,9 +253,9 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
     m.split.valid = cf.resolved;
     char buf[240];
     std::snprintf(buf, sizeof buf,
-                  "sigma separation %.4g +- %.2g nm vs component FWHM %.4g nm (separation/FWHM %.3g, "
+                  "sigma separation %.4g +- %.2g pm vs component FWHM %.4g pm (separation/FWHM %.3g, "
                   "resolution ratio %.3g)",
-                  cf.sigma_separation_nm, cf.sigma_separation_err_nm, cf.component_fwhm_nm,
+                  cf.sigma_separation_nm * 1e3, cf.sigma_separation_err_nm * 1e3, cf.component_fwhm_nm * 1e3,
                   cf.component_fwhm_nm > 0.0 ? cf.sigma_separation_nm / cf.component_fwhm_nm : 0.0,
                   o.resolution_ratio);
     m.split.verdict = (cf.resolved ? std::string("valid: resolved, ") : std::string("not resolved: ")) + buf;

@@ -12,6 +12,7 @@
 #include <fstream>
 #include <sstream>
 
+#include "core/utf8_bom.hpp"
 #include "zeeline/core/errors.hpp"
 
 namespace zeeline {
@@ -95,7 +96,7 @@ Spectrum1D ParseSpectrumTable(const std::string& text, const std::string& origin
   std::vector<std::string> labels;  // per column, for messages
   double scale_nm = 1.0;
   bool have_layout = false;
-  std::istringstream in(text);
+  std::istringstream in(WithoutUtf8Bom(text));
   std::string raw;
   int line_no = 0, prev_line = 0;
   auto where = [&](int line, std::size_t col) {
@@ -244,7 +245,8 @@ struct HduData {
 };
 
 std::string HduName(const std::string& path, int hdu, const std::string& extname) {
-  return path + " HDU " + std::to_string(hdu) + (extname.empty() ? "" : " (EXTNAME '" + extname + "')");
+  // hdu is cfitsio's 1-based number; messages use the file.fits[n] index (0 = primary, docs/fits.md).
+  return path + " HDU " + std::to_string(hdu - 1) + (extname.empty() ? "" : " (EXTNAME '" + extname + "')");
 }
 
 // Reads the current HDU (an image of 1 or 2 axes) with its spectral WCS on axis 1.
@@ -375,7 +377,7 @@ Spectrum1D ReadSpectrumFits(const std::string& path) {
   for (int h = 1; h <= nhdu; ++h) {
     int type = 0;
     if (fits_movabs_hdu(file.f, h, &type, &status))
-      throw SpectrumError(path + " HDU " + std::to_string(h) + ": cannot move to it: " + CfitsioText(status));
+      throw SpectrumError(path + " HDU " + std::to_string(h - 1) + ": cannot move to it: " + CfitsioText(status));
     if (type != IMAGE_HDU) continue;
     int naxis = 0;
     fits_get_img_dim(file.f, &naxis, &status);
@@ -406,13 +408,13 @@ Spectrum1D ReadSpectrumFits(const std::string& path) {
         same = std::fabs(d.wavelength_nm[k] - s.wavelength_nm[k]) <= 1e-9 * s.wavelength_nm[k];
       if (!same)
         throw SpectrumError(HduName(path, h, extname) + ": wavelength grid (NAXIS1/CTYPE1/CRVAL1/CDELT1/CRPIX1) differs "
-                            "from HDU " + std::to_string(found_in[1] ? found_in[1] : 1) + "; expected the same grid in every HDU");
+                            "from HDU " + std::to_string(found_in[1] ? found_in[1] - 1 : 0) + "; expected the same grid in every HDU");
     }
     for (std::size_t r = 0; r < d.rows.size(); ++r) {
       const int c = d.stokes_codes[r] == 0 ? code : d.stokes_codes[r];
       if (found_in[c])
         throw SpectrumError(HduName(path, h, extname) + ": Stokes " + "?IQUV"[c] + " found again (already in HDU " +
-                            std::to_string(found_in[c]) + ")");
+                            std::to_string(found_in[c] - 1) + ")");
       found_in[c] = h;
       *slot[c] = std::move(d.rows[r]);
     }
@@ -423,10 +425,10 @@ Spectrum1D ReadSpectrumFits(const std::string& path) {
                         "or a 2-D image with CTYPE2 = 'STOKES'");
   if ((found_in[2] != 0) != (found_in[3] != 0))
     throw SpectrumError(path + ": Stokes " + (found_in[2] ? "Q" : "U") + " (HDU " +
-                        std::to_string(found_in[2] ? found_in[2] : found_in[3]) + ") without " +
+                        std::to_string((found_in[2] ? found_in[2] : found_in[3]) - 1) + ") without " +
                         (found_in[2] ? "U" : "Q") + "; Q and U must come together");
   if (s.size() < kMinSpectrumSamples)
-    throw SpectrumError(path + " HDU " + std::to_string(found_in[1]) + ": NAXIS1 = " + std::to_string(s.size()) +
+    throw SpectrumError(path + " HDU " + std::to_string(found_in[1] - 1) + ": NAXIS1 = " + std::to_string(s.size()) +
                         "; expected at least " + std::to_string(kMinSpectrumSamples) + " wavelengths");
   return s;
 }

@@ -116,6 +116,7 @@ std::vector<float> SynthesizeScene(const Scene& scene, const std::vector<MeLine>
     StokesArray a(nw, 4), b(nw, 4);
 #pragma omp for schedule(dynamic, 8)
     for (long p = 0; p < static_cast<long>(np); ++p) {
+      if (o.cancel && o.cancel->load(std::memory_order_relaxed)) continue;  // drain the loop quickly
       const std::size_t i = static_cast<std::size_t>(p);
       synth.Synthesize(scene.primary[i], a);
       const double w = scene.primary_weight.empty() ? 1.0 : scene.primary_weight[i];
@@ -129,6 +130,7 @@ std::vector<float> SynthesizeScene(const Scene& scene, const std::vector<MeLine>
               static_cast<float>(a(k, s));
     }
   }
+  if (o.cancel && o.cancel->load()) return {};
   // Noise: one generator, in pixel order, so the cube does not depend on the thread count.
   if (o.noise_rel > 0.0) {
     std::mt19937_64 rng(o.seed);

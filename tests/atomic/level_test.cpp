@@ -48,6 +48,26 @@ TEST(ParseLevel, ReadsMeasuredG) {
   EXPECT_EQ(a.two_J, 8);
 }
 
+// Laporte's rule (Condon & Shortley 1935 sect. 4.9, from memory): an electric-dipole line joins levels of
+// opposite parity. The rule is applied when both designations state a parity ('o'/'*' odd, 'e' even).
+TEST(LevelParity, MarksAreReadAndSameParityLinesAreRefused) {
+  EXPECT_EQ(ParseLevel("5Po1").term.parity, Parity::kOdd);
+  EXPECT_EQ(ParseLevel("3P*2").term.parity, Parity::kOdd);
+  EXPECT_EQ(ParseLevel("5De0").term.parity, Parity::kEven);
+  EXPECT_EQ(ParseLevel("5D0").term.parity, Parity::kUnstated);
+  EXPECT_EQ(ParseLevel("5De0").two_J, 0);
+  // Fe I 630.25 nm is z5Po1 - e5D0 (odd -> even): allowed; same parity on both sides: refused.
+  EXPECT_EQ(ElectricDipoleParityProblem(ParseLevel("5Po1"), ParseLevel("5De0")), "");
+  EXPECT_EQ(ElectricDipoleParityProblem(ParseLevel("5Po1"), ParseLevel("5D0")), "");  // upper parity not stated
+  EXPECT_EQ(ElectricDipoleParityProblem(ParseLevel("5P1"), ParseLevel("5D0")), "");   // neither stated
+  const std::string odd = ElectricDipoleParityProblem(ParseLevel("5Po1"), ParseLevel("5Do0"));
+  EXPECT_NE(odd.find("both levels are odd"), std::string::npos) << odd;
+  EXPECT_NE(odd.find("5Po1"), std::string::npos) << odd;
+  EXPECT_NE(ElectricDipoleParityProblem(ParseLevel("3Pe2"), ParseLevel("3De1")).find("even"), std::string::npos);
+  // jK levels carry no parity mark: nothing to check.
+  EXPECT_EQ(ElectricDipoleParityProblem(ParseLevel("jK(2P3/2,s,3/2,2)"), ParseLevel("jK(2P3/2,p,5/2,3)")), "");
+}
+
 struct BadLevel {
   const char* text;
   const char* must_mention;  // a fragment the message must contain

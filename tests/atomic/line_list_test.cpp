@@ -33,6 +33,18 @@ TEST(LineList, ReadsColumnsAndOptionalCells) {
   EXPECT_EQ(lines[1].source_line, 4);
 }
 
+// A list saved by a spreadsheet starts with the UTF-8 byte-order mark EF BB BF (Unicode Standard sect.
+// 23.8, RFC 3629 sect. 6): it is not part of the first column name.
+TEST(LineList, Utf8ByteOrderMarkBeforeTheHeaderIsSkipped) {
+  const std::string with_bom = std::string("\xEF\xBB\xBF") +
+                               "name,wavelength,frame,species,lower,upper\n"
+                               "a,630.2494nm,air,Fe I,5P1,5D0\n";
+  const auto lines = ParseLineList(with_bom, "bom.csv");
+  ASSERT_EQ(lines.size(), 1u);
+  EXPECT_EQ(lines[0].name, "a");
+  EXPECT_CLOSE(lines[0].wavelength_nm, 630.2494, 1e-15);
+}
+
 TEST(LineList, BundledDemoListParses) {
   const auto lines = ReadLineList(std::string(ZEELINE_SOURCE_DIR) + "/demo_maps/lines.csv");
   EXPECT_GE(lines.size(), 5u);

@@ -165,6 +165,16 @@ with tempfile.TemporaryDirectory() as tmp:
     with open(p, "r+b") as f:
         f.truncate(2880 + 200)
     bad.append((p, "truncated"))
+    # One HDU numbering (docs/fits.md): a problem in cube.fits[1] is reported as "HDU 1", the index of the
+    # extended filename and of astropy's HDUList.
+    p = os.path.join(tmp, "ext_nospec.fits")
+    make_cube(p, "xyws", ext="CUBE")
+    with fits.open(p, mode="update") as f:
+        f[1].header["CTYPE3"] = "PIXEL"
+    rc, out, err = run("info", p + "[1]")
+    check(rc == 1 and "HDU 1" in err and "HDU 2" not in err, "extension [1] reported as HDU 1: %s" % err)
+    rc, out, err = run("info", os.path.join(tmp, "air.fits"), "--json")
+    check(rc == 0 and json.loads(out).get("hdu") == 0, "info --json hdu of a primary-HDU cube is 0: %s" % out[:80])
     for path, fragment in bad:
         rc, out, err = run("info", path)
         check(rc == 1, "%s: exit %d (expected 1 = bad input)" % (path, rc))

@@ -232,7 +232,7 @@ TEST(CubeReader, ExtensionByNumberAndByExtnameAndFirstImageByDefault) {
   WriteCube(path, spec);
   for (const std::string p : {path, path + "[1]", path + "[STOKESDATA]"}) {
     CubeReader reader(p);
-    EXPECT_EQ(reader.info().hdu, 2) << p;
+    EXPECT_EQ(reader.info().hdu, 1) << p;  // the file.fits[n] index, as in the name
     EXPECT_EQ(reader.info().extname, "STOKESDATA");
     CubeTile tile;
     reader.ReadRows(0, 1, tile);
@@ -327,7 +327,7 @@ TEST(CubeReaderBadInput, TruncatedDataIsReportedBeforeAllocation) {
   const std::string path = dir.File("trunc.fits");
   WriteCube(path, spec);
   std::filesystem::resize_file(path, 2880 + 100);  // header + 100 bytes of the 960-byte data
-  ExpectFitsError(path, {path, "HDU 1", "NAXIS1..NAXIS4", "truncated"});
+  ExpectFitsError(path, {path, "HDU 0", "NAXIS1..NAXIS4", "truncated"});
 }
 
 TEST(CubeReaderBadInput, TruncatedHeaderIsReported) {
@@ -448,7 +448,7 @@ TEST(CubeReaderBadInput, AllNanCubeIsRejectedWhenScanned) {
   WriteCube(path, spec);
   CubeReadOptions opt;
   opt.scan_statistics = true;
-  ExpectFitsError(path, {path, "HDU 1", "all 240 data samples are NaN or Inf"}, opt);
+  ExpectFitsError(path, {path, "HDU 0", "all 240 data samples are NaN or Inf"}, opt);
 }
 
 TEST(CubeReaderBadInput, BlankIntegerPixelsBecomeNan) {

@@ -2,7 +2,8 @@
 //
 // Accepted text forms (angular momenta are integers or n/2; spaces are not allowed):
 //   LS term        "5D4", "2P3/2", "3P1", "4F9/2"          (2S+1)(L letter)(J)
-//                  an odd-parity mark 'o' or '*' may follow the L letter: "5Fo5", "3P*2"
+//                  a parity mark may follow the L letter: 'o' or '*' odd ("5Fo5", "3P*2"), 'e' even
+//                  ("5De0"); without a mark the parity is not stated (see ElectricDipoleParityProblem)
 //   jK coupling    "jK(2P3/2,p,5/2,2)"   core LS term (its J is J1), outer electron's l as a letter,
 //                  K (J1 + l = K), J (K + s = J, s = 1/2).  Noble-gas excited levels, e.g. Ne 2p^5 3p.
 //   jj coupling    "jj(2P1/2,2S1/2,1)"   two LS subsystems with J1 and J2, then J (J1 + J2 = J).
@@ -19,11 +20,15 @@
 
 namespace zeeline {
 
+/// Parity as written in the designation: only a mark states it.
+enum class Parity { kUnstated, kEven, kOdd };
+
 /// An LS term with all angular momenta stored doubled (2S, 2J) so half-integers are exact.
 struct LsTerm {
   int two_S = 0;  ///< 2S = multiplicity - 1
   int L = 0;      ///< orbital angular momentum quantum number
   int two_J = 0;  ///< 2J
+  Parity parity = Parity::kUnstated;  ///< from the mark after the L letter ('o'/'*' odd, 'e' even)
 };
 
 enum class Coupling { kLS, kJK, kJJ };
@@ -44,6 +49,11 @@ struct Level {
 
 /// Parse a level designation (see the file comment). Throws LevelParseError with the token and reason.
 Level ParseLevel(const std::string& text);
+
+/// Laporte's rule: an electric-dipole transition connects levels of opposite parity (Condon & Shortley
+/// 1935, sect. 4.9; Cowan 1981, sect. 14.6, from memory). Returns "" when the rule holds or cannot be
+/// checked (a level in jK/jj form or an LS level without a parity mark), else a message naming both levels.
+std::string ElectricDipoleParityProblem(const Level& lower, const Level& upper);
 
 /// Spectroscopic letter for an orbital quantum number (upper case: terms; lower case: electrons).
 char OrbitalLetter(int L, bool upper_case);

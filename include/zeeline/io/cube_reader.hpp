@@ -80,7 +80,7 @@ struct CubeStatistics {
 
 struct CubeInfo {
   std::string path;      ///< as given (may include an extended-syntax HDU selector)
-  int hdu = 1;           ///< 1-based HDU number (1 = primary)
+  int hdu = 0;           ///< HDU index as in the FITS extended file name file.fits[n]: 0 = primary
   std::string extname;   ///< empty for an unnamed HDU
   int bitpix = 0;
   std::array<CubeAxis, 4> axes;  ///< in FITS order (axes[0] is NAXIS1)

@@ -1,10 +1,10 @@
 // zeeline/io/field_map_writer.hpp -- writing field maps and Stokes cubes as multi-extension FITS.
 //
 // Field-map file layout (docs/fits.md):
-//   HDU 1  primary, no data (NAXIS = 0), provenance keywords: CREATOR (tool and ZEELINE_VERSION),
+//   HDU 0  primary, no data (NAXIS = 0), provenance keywords: CREATOR (tool and ZEELINE_VERSION),
 //          DATE (UTC, written by cfitsio), ZLMETHOD, ZLLINE, ZLINPUT, ZLCMD (long strings use the FITS
 //          4.0 CONTINUE convention), HISTORY lines, caller-supplied keywords.
-//   HDU 2+ one 2-D image per map, EXTNAME = B_TOTAL, B_INCL, B_AZIM, B_LOS, B_TRANS, V_LOS, CHI2,
+//   HDU 1+ one 2-D image per map, EXTNAME = B_TOTAL, B_INCL, B_AZIM, B_LOS, B_TRANS, V_LOS, CHI2,
 //          METHOD, <NAME>_SIGMA for uncertainties, QUALITY (int32 bit flags, io/quality_flags.hpp) or any
 //          other name; BUNIT per map ('G', 'deg', 'km/s'); the spatial WCS of the input cube (cards
 //          from CubeInfo::spatial_wcs_header: wcslib wcssub + wcshdo) on every map.

@@ -75,7 +75,7 @@ struct FieldMapOptions {
   TransverseRegion transverse = TransverseRegion::kCore;
   double core_halfwidth_nm = 0.0;    ///< weak-field transverse core region (0 = whole window)
   double wing_start_nm = 0.0;        ///< weak-field transverse wing region start
-  double weak_ratio = 0.15;          ///< splitting/width below which the weak-field answer is used (auto) / valid (wfa)
+  double weak_ratio = kDefaultWeakRatio;  ///< r below which the weak-field answer is used (auto) / valid (wfa)
   double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
   double detection_sigma = 3.0;      ///< LOW_SIGNAL below this many sigma in both B_LOS and B_TRANS
   bool need_transverse = false;      ///< refuse cubes without Q and U (the caller asked for B_TRANS)

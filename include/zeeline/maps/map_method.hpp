@@ -14,6 +14,13 @@ enum class MapMethod {
   kAuto = 0,             ///< "auto": chosen per pixel (the METHOD map records the choice)
 };
 
+/// The weak-field regime test of `map` and `measure` (--weak-ratio, one default and one meaning): the
+/// weak-field answer is used (auto) and counts as valid when r = g_eff Delta lambda_B(B) / w is below this,
+/// with w the 1/e half-width of the line's intensity profile as observed. LL04 sect. 9.6 asks for
+/// g_eff Delta lambda_B << Delta lambda_D; 0.15 keeps the weak-field B_LOS bias of a Milne-Eddington line
+/// near a per cent (docs/methods.md).
+inline constexpr double kDefaultWeakRatio = 0.15;
+
 /// "wfa", "cog", "split", "me", "auto".
 std::string ToString(MapMethod m);
 /// Inverse of ToString; throws OptionError listing the choices.

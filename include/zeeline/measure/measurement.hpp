@@ -14,7 +14,8 @@
 // component from the fit and B* the largest of the weak-field |B|, a significant (3 sigma) COG |B_LOS| and
 // a resolved split field):
 //   wfa    weak_field.hpp: B_LOS (needs V), B_TRANS and azimuth (need Q, U and G != 0); valid when
-//          r < weak_ratio (default 0.3; LL04 sect. 9.6 asks g_eff Delta lambda_B << Delta lambda_D).
+//          r < weak_ratio (default kDefaultWeakRatio = 0.15, as in `map`; LL04 sect. 9.6 asks
+//          g_eff Delta lambda_B << Delta lambda_D).
 //   cog    centre_of_gravity.hpp: B_LOS and V_LOS (needs V); valid at any field strength (Rees & Semel
 //          1979), exact for a normal triplet and approximate for anomalous patterns (Uitenbroek 2003).
 //   split  the Zeeman component fit: |B| and V_LOS; valid when the sigma groups are resolved.
@@ -30,6 +31,7 @@
 #include <string>
 
 #include "zeeline/atomic/zeeman_pattern.hpp"
+#include "zeeline/maps/map_method.hpp"
 #include "zeeline/measure/component_fit.hpp"
 #include "zeeline/measure/spectrum_reader.hpp"
 #include "zeeline/measure/stokes_characteristics.hpp"
@@ -49,7 +51,7 @@ struct MeasureOptions {
   LineSense sense = LineSense::kAuto;
   double window_halfwidth_nm = 0.0;     ///< 0 = from the line (see above)
   double noise_rel = 0.0;               ///< noise in units of the continuum; 0 = measured
-  double weak_ratio = 0.3;              ///< wfa valid below this r
+  double weak_ratio = kDefaultWeakRatio;  ///< wfa valid below this r (maps/map_method.hpp, same as `map`)
   double resolution_ratio = 1.0;        ///< sigma separation / component FWHM for "resolved"
   int realisations = 200;               ///< noise realisations for the characteristics' errors
   std::uint32_t seed = 20240611;

@@ -14,6 +14,7 @@
 // pixel with a slow component (asymmetric V profiles).
 #pragma once
 
+#include <atomic>
 #include <cstdint>
 #include <string>
 #include <vector>
@@ -45,12 +46,14 @@ struct SceneSynthesisOptions {
   double noise_rel = 1e-3;     ///< noise sigma in units of each pixel's continuum (0 = noiseless)
   std::uint64_t seed = 1;      ///< noise generator seed
   int threads = 0;             ///< 0 = all available
+  const std::atomic<bool>* cancel = nullptr;  ///< polled per pixel; once set, SynthesizeScene returns {}
 
   std::string Validate() const;
 };
 
 /// Synthesises the scene on `wavelength_nm`; returns values laid out like CubeTile / StokesCubeData
-/// (values[((p * 4) + s) * nw + w], s = I, Q, U, V). Throws OptionError for invalid input.
+/// (values[((p * 4) + s) * nw + w], s = I, Q, U, V); an empty vector when options.cancel was set during
+/// the run. Throws OptionError for invalid input.
 std::vector<float> SynthesizeScene(const Scene& scene, const std::vector<MeLine>& lines,
                                    const Eigen::ArrayXd& wavelength_nm, const SynthesisOptions& synthesis,
                                    const SceneSynthesisOptions& options);
