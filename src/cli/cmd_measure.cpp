@@ -8,6 +8,7 @@
 #include <memory>
 #include <sstream>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "cli/commands.hpp"
@@ -18,14 +19,17 @@
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
 #include "zeeline/io/air_vacuum.hpp"
+#include "zeeline/io/cube_reader.hpp"
+#include "zeeline/io/spatial_wcs.hpp"
 #include "zeeline/maps/spectral_derivative.hpp"
+#include "zeeline/measure/cube_pixel.hpp"
 #include "zeeline/measure/measurement.hpp"
 
 namespace zeeline::cli {
 namespace {
 
 struct MeasureArgs {
-  std::string spectrum, instrument_fwhm, window, png, json_file;
+  std::string spectrum, instrument_fwhm, window, png, json_file, pixel, world;
   LineSelectionArgs line;
   std::optional<double> g_eff, damping;
   bool emission = false, absorption = false, json = false, overwrite = false;
@@ -342,6 +346,63 @@ void WritePng(const std::string& path, const Spectrum1D& s, const SelectedLine& 
   }
 }
 
+// "X,Y" -> two strings; `option` names the option in messages.
+std::pair<std::string, std::string> SplitPair(const std::string& text, const std::string& option) {
+  const auto comma = text.find(',');
+  if (comma == std::string::npos || comma == 0 || comma + 1 == text.size() || text.find(',', comma + 1) != std::string::npos)
+    throw OptionError(option + " '" + text + "': expected two values separated by a comma");
+  return {text.substr(0, comma), text.substr(comma + 1)};
+}
+
+// An angle with an optional unit: arcsec (default, also '"'), arcmin, deg. Returns degrees.
+double ParseAngle_deg(const std::string& text, const std::string& option) {
+  std::size_t used = 0;
+  double v = 0.0;
+  try {
+    v = std::stod(text, &used);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  const std::string unit = used ? text.substr(used) : "";
+  if (used == 0 || !std::isfinite(v)) throw OptionError(option + ": '" + text + "' is not an angle");
+  if (unit.empty() || unit == "arcsec" || unit == "\"") return v / 3600.0;
+  if (unit == "arcmin" || unit == "'") return v / 60.0;
+  if (unit == "deg") return v;
+  throw OptionError(option + ": unknown angle unit '" + unit + "' in '" + text + "' (arcsec, arcmin or deg)");
+}
+
+// The 0-based pixel named by --pixel X,Y (1-based, like FITS) or --world LON,LAT (the cube's spatial WCS).
+std::pair<long, long> CubePixel(const MeasureArgs& a) {
+  if (!a.pixel.empty() && !a.world.empty()) throw OptionError("give --pixel or --world, not both");
+  if (!a.pixel.empty()) {
+    const auto [xs, ys] = SplitPair(a.pixel, "--pixel");
+    auto whole = [&](const std::string& t) {
+      std::size_t used = 0;
+      long v = 0;
+      try {
+        v = std::stol(t, &used);
+      } catch (const std::exception&) {
+        used = 0;
+      }
+      if (used == 0 || used != t.size() || v < 1)
+        throw OptionError("--pixel '" + a.pixel + "': '" + t + "' is not a pixel number >= 1 (pixels count from 1)");
+      return v;
+    };
+    return {whole(xs) - 1, whole(ys) - 1};
+  }
+  const auto [ls, bs] = SplitPair(a.world, "--world");
+  const CubeInfo info = ReadCubeInfo(a.spectrum);
+  const SpatialWcs wcs(info.spatial_wcs_header);
+  if (!wcs.has_world()) throw FitsError(a.spectrum + ": the cube has no spatial WCS; use --pixel X,Y");
+  const auto p = wcs.WorldToPixel(ParseAngle_deg(ls, "--world"), ParseAngle_deg(bs, "--world"));
+  return {std::lround(p[0]), std::lround(p[1])};
+}
+
+Spectrum1D ReadCubePixel(const MeasureArgs& a, const SpectrumReadOptions& ro) {
+  const auto [x, y] = CubePixel(a);
+  return ReadCubePixelSpectrum(a.spectrum, x, y, ro);
+}
+
 void RunMeasure(const MeasureArgs& a) {
   CheckOutputFile(a.png, a.overwrite, "--png");  // before any work (docs/cli.md, "Outputs")
   CheckOutputFile(a.json_file, a.overwrite, "--json-file");
@@ -367,7 +428,8 @@ void RunMeasure(const MeasureArgs& a) {
 
   SpectrumReadOptions ro;
   ro.v_sign = a.v_sign;
-  const Spectrum1D s = ReadSpectrum(a.spectrum, ro);
+  const Spectrum1D s = (a.pixel.empty() && a.world.empty()) ? ReadSpectrum(a.spectrum, ro)
+                                                            : ReadCubePixel(a, ro);
 
   MeasureOptions o;
   o.rest_wavelength_nm = line.rest_wavelength_nm;
@@ -420,8 +482,13 @@ void AddMeasureCommand(CLI::App& app) {
       "  zeeline measure demo_maps/spectra/cd_lamp_1T.txt --lower 1P1 --upper 1D2 --wavelength 643.847nm \\\n"
       "      --instrument-fwhm 2pm --png cd.png\n"
       "  zeeline measure umbra.fits --line FeI_6302 --catalog demo_maps/lines.csv --json\n"
-      "  zeeline measure lamp.txt --wavelength 643.847nm --g-eff 1 --free-components 3");
-  cmd->add_option("spectrum", a->spectrum, "spectrum table or FITS file")->required();
+      "  zeeline measure lamp.txt --wavelength 643.847nm --g-eff 1 --free-components 3\n"
+      "  zeeline measure demo_maps/bipolar_region.fits --pixel 15,22 --line FeI_6302 --catalog demo_maps/lines.csv");
+  cmd->add_option("spectrum", a->spectrum, "spectrum table or FITS file, or a Stokes cube with --pixel/--world")->required();
+  cmd->add_option("--pixel", a->pixel, "X,Y: measure this pixel of a Stokes cube (1-based, like FITS)");
+  cmd->add_option("--world", a->world,
+                  "LON,LAT: measure the cube pixel nearest these world coordinates of its spatial WCS "
+                  "(angles in arcsec unless given with arcmin or deg)");
   AddLineSelectionOptions(cmd, a->line, "default: the frame of the spectrum (FITS CTYPE1), tables have none");
   cmd->add_option("--g-eff", a->g_eff, "effective Lande factor for a line given by --wavelength alone (with --free-components)");
   cmd->add_flag("--emission", a->emission, "the line is an emission line (default: detected)");
