@@ -23,6 +23,7 @@ int main(int argc, char** argv) {
   zeeline::cli::AddInfoCommand(app);
   zeeline::cli::AddViewCommand(app);
   zeeline::cli::AddBroadeningCommand(app);
+  zeeline::cli::AddCalibrateCommand(app);
 
   try {
     app.parse(argc, argv);

@@ -52,4 +52,11 @@ class BroadeningError : public std::runtime_error {
   using std::runtime_error::runtime_error;
 };
 
+/// Polarimeter calibration problems: a malformed calibration table (file, line, column), a sequence that
+/// cannot constrain part of the model (naming the part), a fit that failed.
+class CalibrationError : public std::runtime_error {
+ public:
+  using std::runtime_error::runtime_error;
+};
+
 }  // namespace zeeline

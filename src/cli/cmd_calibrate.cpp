@@ -1,0 +1,238 @@
+// `zeeline calibrate modulation|crosstalk|magnet`: polarimeter calibration (a thin layer over polarimetry/).
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <memory>
+#include <optional>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "cli/commands.hpp"
+#include "cli/json_writer.hpp"
+#include "io/residual_plot.hpp"
+#include "zeeline/core/errors.hpp"
+#include "zeeline/polarimetry/modulation_fit.hpp"
+
+namespace zeeline::cli {
+namespace {
+
+namespace pol = zeeline::polarimetry;
+
+const char* kStokesNames[] = {"I", "Q", "U", "V"};
+
+std::string Num(double v, const char* format = "%.6g") {
+  if (!std::isfinite(v)) return "n/a";
+  char buf[64];
+  std::snprintf(buf, sizeof buf, format, v);
+  return buf;
+}
+
+void RefuseExisting(const std::vector<std::string>& outputs, bool overwrite) {
+  for (const std::string& out : outputs)
+    if (!out.empty() && std::filesystem::exists(out) && !overwrite)
+      throw OutputError(out + ": exists; use --overwrite to replace it (nothing was written)");
+}
+
+// Writes text to `path` through a temporary file and a rename (nothing half-written).
+void WriteTextFile(const std::string& path, const std::string& text) {
+  const std::string tmp = path + ".tmp-zeeline";
+  {
+    std::ofstream f(tmp, std::ios::binary);
+    if (!f) throw OutputError(path + ": cannot open for writing");
+    f << text;
+    f.close();
+    if (!f) {
+      std::remove(tmp.c_str());
+      throw OutputError(path + ": write failed");
+    }
+  }
+  std::error_code ec;
+  std::filesystem::rename(tmp, path, ec);
+  if (ec) {
+    std::remove(tmp.c_str());
+    throw OutputError(path + ": cannot write (" + ec.message() + ")");
+  }
+}
+
+void Matrix(JsonWriter& j, const Eigen::MatrixXd& m) {
+  j.BeginArray();
+  for (Eigen::Index r = 0; r < m.rows(); ++r) {
+    std::vector<double> row(static_cast<std::size_t>(m.cols()));
+    for (Eigen::Index c = 0; c < m.cols(); ++c) row[static_cast<std::size_t>(c)] = m(r, c);
+    j.Array(row);
+  }
+  j.EndArray();
+}
+
+void Warnings(JsonWriter& j, const std::vector<std::string>& warnings) {
+  j.Key("warnings").BeginArray();
+  for (const std::string& w : warnings) j.Value(w);
+  j.EndArray();
+}
+
+// ---------------------------------------------------------------- modulation
+struct ModulationArgs {
+  std::string table, png, output;
+  double retardance_start = 90.0, gain = 1.0;
+  std::optional<double> read_noise;
+  bool json = false, overwrite = false;
+};
+
+std::string ModulationJson(const pol::CalibrationSequence& seq, const pol::ModulationFitResult& r) {
+  std::ostringstream out;
+  JsonWriter j(out);
+  j.BeginObject();
+  j.Key("input").Value(seq.source);
+  j.Key("n_modulation_states").Value(seq.n_modulation);
+  j.Key("n_calibration_states").Value(static_cast<long long>(seq.states.size()));
+  j.Key("modulation_matrix");
+  Matrix(j, r.modulation);
+  j.Key("modulation_matrix_err");
+  Matrix(j, r.modulation_err);
+  j.Key("demodulation_matrix");
+  Matrix(j, r.demodulation);
+  j.Key("efficiency").BeginObject();
+  for (int i = 0; i < 4; ++i) j.Key(kStokesNames[i]).Value(r.efficiency(i));
+  j.EndObject();
+  j.Key("retardance_deg").Value(r.retardance_deg).Key("retardance_err_deg").Value(r.retardance_err_deg);
+  j.Key("retarder_offset_deg").Value(r.retarder_offset_deg);
+  j.Key("retarder_offset_err_deg").Value(r.retarder_offset_err_deg);
+  j.Key("transmission").BeginObject();
+  for (std::size_t k = 0; k < r.state_names.size(); ++k)
+    if (std::isfinite(r.transmission[k])) j.Key(r.state_names[k]).Value(r.transmission[k]);
+  j.EndObject();
+  j.Key("transmission_err").BeginObject();
+  for (std::size_t k = 0; k < r.state_names.size(); ++k)
+    if (std::isfinite(r.transmission[k])) j.Key(r.state_names[k]).Value(r.transmission_err[k]);
+  j.EndObject();
+  j.Key("transmission_reference").Value(seq.states[static_cast<std::size_t>(seq.FirstOpen())].name);
+  j.Key("dark_counts").Array(std::vector<double>(r.dark_counts.data(), r.dark_counts.data() + r.dark_counts.size()));
+  j.Key("dark_counts_err")
+      .Array(std::vector<double>(r.dark_counts_err.data(), r.dark_counts_err.data() + r.dark_counts_err.size()));
+  j.Key("dark_fitted").Value(r.dark_fitted);
+  j.Key("read_noise_counts").Value(r.read_noise_counts).Key("read_noise_estimated").Value(r.read_noise_estimated);
+  j.Key("chi2").Value(r.chi2).Key("dof").Value(r.dof).Key("chi2_reduced").Value(r.chi2_reduced);
+  j.Key("converged").Value(r.converged);
+  Warnings(j, r.warnings);
+  j.EndObject();
+  out << "\n";
+  return out.str();
+}
+
+std::vector<std::string> ModulationSummary(const pol::CalibrationSequence& seq, const pol::ModulationFitResult& r) {
+  std::vector<std::string> t;
+  t.push_back("calibration sequence: " + seq.source + " (" + std::to_string(seq.states.size()) + " states, " +
+              std::to_string(seq.n_modulation) + " modulation states)");
+  t.push_back("modulation matrix O (counts per unit open-beam intensity; rows m1..mN, columns I Q U V):");
+  for (Eigen::Index k = 0; k < r.modulation.rows(); ++k) {
+    std::string row = "  m" + std::to_string(k + 1) + " ";
+    for (int i = 0; i < 4; ++i) row += " " + Num(r.modulation(k, i), "%10.5g") + " +-" + Num(r.modulation_err(k, i), "%-7.2g");
+    t.push_back(row);
+  }
+  t.push_back("efficiencies (O normalised to max O_k0 = 1): I " + Num(r.efficiency(0), "%.4f") + "  Q " +
+              Num(r.efficiency(1), "%.4f") + "  U " + Num(r.efficiency(2), "%.4f") + "  V " +
+              Num(r.efficiency(3), "%.4f") + "  (QUV quadrature sum " +
+              Num(r.efficiency.tail<3>().norm(), "%.4f") + ", optimum 1)");
+  t.push_back("calibration retarder: retardance " + Num(r.retardance_deg, "%.4f") + " +- " +
+              Num(r.retardance_err_deg, "%.2g") + " deg, fast-axis offset " + Num(r.retarder_offset_deg, "%+.4f") +
+              " +- " + Num(r.retarder_offset_err_deg, "%.2g") + " deg");
+  std::string tr = "transmissions (state '" + seq.states[static_cast<std::size_t>(seq.FirstOpen())].name +
+                   "' = 1 by definition: only T*O is observable):";
+  t.push_back(tr);
+  for (std::size_t k = 0; k < r.state_names.size(); ++k)
+    if (std::isfinite(r.transmission[k]))
+      t.push_back("  " + r.state_names[k] + "  " + Num(r.transmission[k], "%.5f") + " +- " +
+                  Num(r.transmission_err[k], "%.2g"));
+  std::string dark = r.dark_fitted ? "dark offsets:" : "dark offsets (fixed, no dark state):";
+  for (Eigen::Index j = 0; j < r.dark_counts.size(); ++j) dark += " " + Num(r.dark_counts(j), "%.5g");
+  t.push_back(dark);
+  t.push_back("read noise " + Num(r.read_noise_counts, "%.3g") + " counts" +
+              (r.read_noise_estimated ? " (from the dark states)" : "") + ", chi2_reduced " +
+              Num(r.chi2_reduced, "%.3f") + " (" + std::to_string(r.dof) + " dof)" +
+              (r.converged ? "" : ", NOT CONVERGED"));
+  for (const std::string& w : r.warnings) t.push_back("warning: " + w);
+  return t;
+}
+
+void RunModulation(const ModulationArgs& a) {
+  RefuseExisting({a.png, a.output}, a.overwrite);
+  pol::ModulationFitOptions o;
+  o.retardance_start_deg = a.retardance_start;
+  o.gain_e_per_count = a.gain;
+  o.read_noise_counts = a.read_noise;
+  if (const std::string bad = o.Validate(); !bad.empty()) throw OptionError(bad);
+  const pol::CalibrationSequence seq = pol::ReadCalibrationTable(a.table);
+  const pol::ModulationFitResult r = pol::FitModulation(seq, o);
+  const std::string json = ModulationJson(seq, r);
+  const std::vector<std::string> summary = ModulationSummary(seq, r);
+  if (!a.png.empty()) {
+    ResidualPlotOptions p;
+    p.title = "zeeline calibrate modulation: " + std::filesystem::path(seq.source).filename().string() +
+              "  (residuals per calibration state)";
+    p.row_labels = r.state_names;
+    for (int j = 0; j < seq.n_modulation; ++j) p.series_labels.push_back("m" + std::to_string(j + 1));
+    p.annotation = {"retardance " + Num(r.retardance_deg, "%.3f") + " +- " + Num(r.retardance_err_deg, "%.2g") + " deg",
+                    "retarder offset " + Num(r.retarder_offset_deg, "%+.3f") + " +- " +
+                        Num(r.retarder_offset_err_deg, "%.2g") + " deg",
+                    "efficiency I " + Num(r.efficiency(0), "%.3f") + "  Q " + Num(r.efficiency(1), "%.3f") + "  U " +
+                        Num(r.efficiency(2), "%.3f") + "  V " + Num(r.efficiency(3), "%.3f"),
+                    "chi2_reduced " + Num(r.chi2_reduced, "%.3f") + " (" + std::to_string(r.dof) + " dof)",
+                    "read noise " + Num(r.read_noise_counts, "%.3g") + " counts",
+                    "dashed: +-1 and +-3 sigma"};
+    for (const std::string& w : r.warnings)
+      for (std::size_t i = 0; i < w.size(); i += 60) p.annotation.push_back((i ? "  " : "warning: ") + w.substr(i, 60));
+    try {
+      WriteResidualPlotPng(a.png, r.normalised_residuals, p);
+    } catch (const std::runtime_error& e) {
+      throw OutputError(e.what());
+    }
+  }
+  if (!a.output.empty()) WriteTextFile(a.output, json);
+  if (a.json) {
+    std::cout << json;
+    return;
+  }
+  for (const std::string& l : summary) std::printf("%s\n", l.c_str());
+  if (!a.output.empty()) std::printf("\ncalibration: %s\n", a.output.c_str());
+  if (!a.png.empty()) std::printf("picture: %s\n", a.png.c_str());
+}
+
+void AddModulation(CLI::App* parent) {
+  auto a = std::make_shared<ModulationArgs>();
+  auto* cmd = parent->add_subcommand("modulation",
+                                     "Fit the N x 4 modulation matrix, retarder retardance and offset, transmissions "
+                                     "and darks to a calibration sequence");
+  cmd->footer(
+      "TABLE is CSV with the header state_name,polarizer_deg,retarder_deg,m1,...,mN: one row per calibration\n"
+      "state (blank angle = element out of the beam; names dark... = light blocked, open... = nothing in the\n"
+      "beam; the first open... state has transmission 1). Light: source -> polariser -> retarder -> polarimeter.\n"
+      "A sequence that cannot constrain part of O (e.g. no circular light: the V column) is refused (exit 1).\n"
+      "JSON keys and the model: docs/polarimetry.md.\n"
+      "Examples:\n"
+      "  zeeline calibrate modulation demo_maps/calibration/bench_sequence.csv --png cal.png -o cal.json\n"
+      "  zeeline calibrate modulation seq.csv --json --read-noise 4.5 --gain 1.8");
+  cmd->add_option("table", a->table, "calibration-sequence table (CSV)")->required();
+  cmd->add_flag("--json", a->json, "print the result as one JSON object");
+  cmd->add_option("--png", a->png, "draw the normalised residuals per state into this PNG");
+  cmd->add_option("-o,--output", a->output, "write the calibration (the JSON object) to this file");
+  cmd->add_option("--retardance-start", a->retardance_start, "starting retardance of the calibration retarder, deg")
+      ->capture_default_str();
+  cmd->add_option("--gain", a->gain, "detector gain, photo-electrons per count (photon noise)")->capture_default_str();
+  cmd->add_option("--read-noise", a->read_noise, "read noise in counts (default: from the dark states)");
+  cmd->add_flag("--overwrite", a->overwrite, "replace existing -o / --png outputs");
+  cmd->callback([a] { RunModulation(*a); });
+}
+
+}  // namespace
+
+void AddCalibrateCommand(CLI::App& app) {
+  auto* cmd = app.add_subcommand("calibrate", "Polarimeter calibration: modulation matrix, crosstalk, lab-magnet check");
+  cmd->require_subcommand(1);
+  cmd->footer("Run 'zeeline calibrate <modulation|crosstalk|magnet> --help'. Model and formats: docs/polarimetry.md.");
+  AddModulation(cmd);
+}
+
+}  // namespace zeeline::cli
