@@ -197,6 +197,7 @@ void RunBudget(const BudgetArgs& a) {
   if (!a.png.empty()) WriteBudgetPng(a.png, a.overwrite, b);
   if (a.json) {
     WriteBudgetJson(std::cout, o, b);
+    std::fprintf(stderr, "%s\n", kLabSafety);
     return;
   }
   for (const std::string& l : BudgetText(b)) std::printf("%s\n", l.c_str());
@@ -573,6 +574,7 @@ void RunDiagnose(const DiagnoseArgs& a) {
   if (!pngs.empty()) WriteDiagnosePngs(pngs, a.overwrite, s, o, d, WrapText(text, 50));
   if (a.json) {
     WriteDiagnoseJson(std::cout, s, species, o, d);
+    std::fprintf(stderr, "%s\n", kLabSafety);
     return;
   }
   for (const std::string& l : text) std::printf("%s\n", l.c_str());
