@@ -556,32 +556,23 @@ WidthDiagnosis DiagnoseWidths(const Spectrum1D& s, const WidthDiagnosisOptions& 
       const LmResult other = Minimise(prob, q, free_p, box, typical, 60);
       return other.chi2 < r.chi2 ? other : r;
     };
-    Vec p = best_b.p;
-    double b_lo = p[kField], b_hi = NAN;
-    Vec p_lo = p;
-    for (int k = 1; k <= 60 && std::isnan(b_hi) && b_lo < field_max; ++k) {
+    // [b_lo, b_hi] brackets the crossing; p_lo is the profiled solution at b_lo (the next start).
+    double b_lo = best_b.p[kField], b_hi = NAN;
+    Vec p_lo = best_b.p;
+    auto try_field = [&](double field) {
       Vec q = p_lo;
-      q[kField] = std::min(b_lo + step, field_max);
+      q[kField] = field;
       const LmResult r = profile(q);
       if (r.chi2 > target) {
-        b_hi = q[kField];
+        b_hi = field;
       } else {
-        b_lo = q[kField];
+        b_lo = field;
         p_lo = r.p;
       }
-    }
+    };
+    for (int k = 1; k <= 60 && std::isnan(b_hi) && b_lo < field_max; ++k) try_field(std::min(b_lo + step, field_max));
     if (!std::isnan(b_hi)) {
-      for (int k = 0; k < 10; ++k) {
-        Vec q = p_lo;
-        q[kField] = 0.5 * (b_lo + b_hi);
-        const LmResult r = profile(q);
-        if (r.chi2 > target) {
-          b_hi = q[kField];
-        } else {
-          b_lo = q[kField];
-          p_lo = r.p;
-        }
-      }
+      for (int k = 0; k < 10; ++k) try_field(0.5 * (b_lo + b_hi));
       d.upper_limit_gauss = 0.5 * (b_lo + b_hi);
       // One-sided 95 % is 1.645 sigma for a Gaussian likelihood: the error the limit implies.
       d.field_err_gauss = (*d.upper_limit_gauss - d.field_gauss) / 1.645;
