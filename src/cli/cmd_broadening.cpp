@@ -396,7 +396,8 @@ void WriteDiagnoseJson(std::ostream& out, const Spectrum1D& s, const std::string
     j.Key("g_eff").Value(l.pattern.g_eff).Key("width_factor").Value(d.width_factor[i]);
     j.Key("width_factor_lambda2_nm2").Value(d.width_factor[i] * l.rest_wavelength_nm * l.rest_wavelength_nm);
     j.Key("window_halfwidth_nm").Value(d.window_halfwidth_nm[i]);
-    j.Key("area").Value(d.magnetic_required ? d.magnetic.areas[i] : d.nonmagnetic.areas[i]);
+    const double area = d.magnetic_required ? d.magnetic.areas[i] : d.nonmagnetic.areas[i];
+    j.Key("area").Value(area).Key("sense").Value(area >= 0.0 ? "emission" : "absorption");
     j.EndObject();
   }
   j.EndArray();
@@ -437,12 +438,13 @@ std::vector<std::string> DiagnoseText(const Spectrum1D& s, const std::string& sp
   char buf[320];
   t.push_back("spectrum: " + s.source + " (" + std::to_string(s.size()) + " samples, Stokes I" + (s.has_v() ? "V" : "") +
               "), species " + species + ", mass " + Num(o.mass_u) + " u");
-  t.push_back("  line            lambda [nm]   g_eff   z (width factor)   z*lambda^2 [nm^2]   window [pm]");
+  t.push_back("  line            lambda [nm]   g_eff   z (width factor)   z*lambda^2 [nm^2]   window [pm]   sense");
   for (std::size_t i = 0; i < o.lines.size(); ++i) {
     const double l = o.lines[i].line.rest_wavelength_nm;
-    std::snprintf(buf, sizeof buf, "  %-14s %12.5f %7.3f %18.4f %19.5g %13.4g", o.lines[i].name.c_str(), l,
+    const double area = d.magnetic_required ? d.magnetic.areas[i] : d.nonmagnetic.areas[i];
+    std::snprintf(buf, sizeof buf, "  %-14s %12.5f %7.3f %18.4f %19.5g %13.4g   %s", o.lines[i].name.c_str(), l,
                   o.lines[i].line.pattern.g_eff, d.width_factor[i], d.width_factor[i] * l * l,
-                  d.window_halfwidth_nm[i] * 1e3);
+                  d.window_halfwidth_nm[i] * 1e3, area >= 0.0 ? "emission" : "absorption");
     t.push_back(buf);
   }
   std::snprintf(buf, sizeof buf, "  %d fitted samples, noise I %.3g%s", d.samples, d.noise_I,

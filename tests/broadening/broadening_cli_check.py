@@ -191,6 +191,7 @@ def main():
                 "degenerate", "temperature_K"):
         check(key in d, "diagnose JSON has %s" % key)
     check(d["magnetic_required"] is True and d["degenerate"] is False, "injected 3500 G field detected from I alone")
+    check(all(l["sense"] == "emission" for l in d["lines"]), "emission detected for the three lines")
     check(abs(d["significance_sigma"] - z_expected) < 3.0,
           "significance %.2f sigma vs Asimov expectation %.2f sigma (likelihood ratio %.1f vs %.1f)"
           % (d["significance_sigma"], z_expected, d["likelihood_ratio"], lam_a))
@@ -267,6 +268,7 @@ def main():
         check(a["inclination_deg"] < 90 and abs(a["inclination_deg"] - Gv) < 3 * a["inclination_err_deg"] + 1e-9,
               "absorption: inclination %.1f +- %.1f deg vs %.0f (sign of V)" % (a["inclination_deg"], a["inclination_err_deg"], Gv))
         check(all(x["cog_blos_gauss"] > 0 for x in a["cross_check"]), "centre-of-gravity B_LOS positive too")
+        check([l["sense"] for l in a["lines"]] == ["absorption", "absorption"], "absorption detected for both lines")
         print("     absorption I+V: B %.0f +- %.0f G (truth %.0f), inclination %.1f +- %.1f (truth %.0f)"
               % (a["field_gauss"], a["field_err_gauss"], Bv, a["inclination_deg"], a["inclination_err_deg"], Gv))
 
