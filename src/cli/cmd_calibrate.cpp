@@ -12,8 +12,12 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/output_paths.hpp"
 #include "io/residual_plot.hpp"
 #include "zeeline/core/errors.hpp"
+#include "zeeline/core/units.hpp"
+#include "zeeline/io/stokes_transform_writer.hpp"
+#include "zeeline/polarimetry/crosstalk.hpp"
 #include "zeeline/polarimetry/modulation_fit.hpp"
 
 namespace zeeline::cli {
@@ -30,11 +34,6 @@ std::string Num(double v, const char* format = "%.6g") {
   return buf;
 }
 
-void RefuseExisting(const std::vector<std::string>& outputs, bool overwrite) {
-  for (const std::string& out : outputs)
-    if (!out.empty() && std::filesystem::exists(out) && !overwrite)
-      throw OutputError(out + ": exists; use --overwrite to replace it (nothing was written)");
-}
 
 // Writes text to `path` through a temporary file and a rename (nothing half-written).
 void WriteTextFile(const std::string& path, const std::string& text) {
@@ -158,7 +157,8 @@ std::vector<std::string> ModulationSummary(const pol::CalibrationSequence& seq, 
 }
 
 void RunModulation(const ModulationArgs& a) {
-  RefuseExisting({a.png, a.output}, a.overwrite);
+  CheckOutputFile(a.png, a.overwrite, "--png");  // before any work (docs/cli.md, "Outputs")
+  CheckOutputFile(a.output, a.overwrite, "-o");
   pol::ModulationFitOptions o;
   o.retardance_start_deg = a.retardance_start;
   o.gain_e_per_count = a.gain;
@@ -226,6 +226,122 @@ void AddModulation(CLI::App* parent) {
   cmd->callback([a] { RunModulation(*a); });
 }
 
+
+// ---------------------------------------------------------------- crosstalk
+struct CrosstalkArgs {
+  std::string cube, continuum, output;
+  double strong_v_sigma = 5.0, depth_fraction = 0.002;
+  int v_sign = 1;
+  bool json = false, correct = false, overwrite = false;
+};
+
+std::vector<std::pair<double, double>> ParseRanges(const std::string& text) {
+  std::vector<std::pair<double, double>> out;
+  std::stringstream in(text);
+  std::string item;
+  while (std::getline(in, item, ',')) {
+    const std::size_t colon = item.find(':');
+    if (colon == std::string::npos)
+      throw OptionError("--continuum: '" + item + "' is not a range START:END (e.g. 630.10nm:630.13nm)");
+    out.emplace_back(ParseWavelength_nm(item.substr(0, colon)), ParseWavelength_nm(item.substr(colon + 1)));
+  }
+  if (out.empty()) throw OptionError("--continuum: no range given (START:END,...)");
+  return out;
+}
+
+void PutCoefficient(JsonWriter& j, const char* name, double value, double err) {
+  j.Key(name).Value(value);
+  j.Key(std::string(name) + "_err").Value(err);
+}
+
+void RunCrosstalk(const CrosstalkArgs& a) {
+  if (a.correct && a.output.empty()) throw OptionError("--correct needs -o OUT.fits");
+  if (!a.correct && !a.output.empty()) throw OptionError("-o is the corrected cube: add --correct");
+  if (a.correct) CheckOutputFile(a.output, a.overwrite, "-o");
+  pol::CrosstalkOptions o;
+  if (!a.continuum.empty()) o.continuum_ranges_nm = ParseRanges(a.continuum);
+  o.strong_v_sigma = a.strong_v_sigma;
+  o.continuum_depth_fraction = a.depth_fraction;
+  if (const std::string bad = o.Validate(); !bad.empty()) throw OptionError(bad);
+  if (a.v_sign != 1 && a.v_sign != -1) throw OptionError("--v-sign = " + std::to_string(a.v_sign) + ": need +1 or -1");
+  CubeReadOptions ro;
+  ro.v_sign = a.v_sign;
+  CubeReader reader(a.cube, ro);
+  const pol::CrosstalkResult r = pol::EstimateCrosstalk(reader, o);
+  if (a.correct) {
+    char buf[400];
+    std::snprintf(buf, sizeof buf,
+                  "zeeline calibrate crosstalk: I->Q %.6g I->U %.6g I->V %.6g V->Q %.6g V->U %.6g removed",
+                  r.i_to_q, r.i_to_u, r.i_to_v, r.v_to_q, r.v_to_u);
+    try {
+      WriteStokesTransformedCube(reader.info(), a.output, r.CorrectionMatrix(), a.v_sign,
+                                 {buf, "(V' = V - aV I; Q' = Q - aQ I - bQ V'; U' = U - aU I - bU V')"}, a.overwrite);
+    } catch (const FitsError& e) {
+      throw OutputError(e.what());
+    }
+  }
+  if (a.json) {
+    JsonWriter j(std::cout);
+    j.BeginObject();
+    j.Key("input").Value(a.cube);
+    PutCoefficient(j, "I_to_Q", r.i_to_q, r.i_to_q_err);
+    PutCoefficient(j, "I_to_U", r.i_to_u, r.i_to_u_err);
+    PutCoefficient(j, "I_to_V", r.i_to_v, r.i_to_v_err);
+    PutCoefficient(j, "V_to_Q", r.v_to_q, r.v_to_q_err);
+    PutCoefficient(j, "V_to_U", r.v_to_u, r.v_to_u_err);
+    j.Key("continuum_wavelengths_nm").Array(r.continuum_wavelengths_nm);
+    j.Key("continuum_automatic").Value(r.continuum_automatic);
+    j.Key("continuum_samples").Value(r.continuum_samples);
+    j.Key("strong_v_samples").Value(r.strong_v_samples);
+    j.Key("v_noise").Value(r.v_noise);
+    if (a.correct)
+      j.Key("corrected_output").Value(a.output);
+    else
+      j.Key("corrected_output").Null();
+    Warnings(j, r.warnings);
+    j.EndObject();
+    std::cout << "\n";
+    return;
+  }
+  auto line = [](const char* name, double v, double e) {
+    std::printf("  %-7s %+.4e +- %.2e\n", name, v, e);
+  };
+  std::printf("crosstalk of %s (%zu continuum wavelengths%s, %lld continuum samples, %lld strong-V samples):\n",
+              a.cube.c_str(), r.continuum_wavelengths_nm.size(), r.continuum_automatic ? " from the mean I" : "",
+              r.continuum_samples, r.strong_v_samples);
+  line("I -> Q", r.i_to_q, r.i_to_q_err);
+  line("I -> U", r.i_to_u, r.i_to_u_err);
+  line("I -> V", r.i_to_v, r.i_to_v_err);
+  line("V -> Q", r.v_to_q, r.v_to_q_err);
+  line("V -> U", r.v_to_u, r.v_to_u_err);
+  for (const std::string& w : r.warnings) std::printf("warning: %s\n", w.c_str());
+  if (a.correct) std::printf("\ncorrected cube (input layout and WCS): %s\n", a.output.c_str());
+}
+
+void AddCrosstalk(CLI::App* parent) {
+  auto a = std::make_shared<CrosstalkArgs>();
+  auto* cmd = parent->add_subcommand("crosstalk", "Estimate (and remove) I -> Q,U,V and V -> Q,U crosstalk of a Stokes cube");
+  cmd->footer(
+      "I -> Q,U,V from continuum wavelengths (found from the mean I profile, or --continuum), then V -> Q,U by\n"
+      "regression in strong-V samples. --correct -o OUT.fits writes the corrected cube in the input's layout\n"
+      "and WCS. Model and JSON keys: docs/polarimetry.md.\n"
+      "Examples:\n"
+      "  zeeline calibrate crosstalk demo_maps/calibration/crosstalk_region.fits --json\n"
+      "  zeeline calibrate crosstalk scan.fits --continuum 630.08nm:630.11nm,630.36nm:630.40nm --correct -o clean.fits");
+  cmd->add_option("cube", a->cube, "Stokes I,Q,U,V FITS cube")->required();
+  cmd->add_flag("--json", a->json, "print the coefficients as one JSON object");
+  cmd->add_flag("--correct", a->correct, "write the corrected cube (with -o)");
+  cmd->add_option("-o,--output", a->output, "corrected cube (with --correct)");
+  cmd->add_option("--continuum", a->continuum, "continuum ranges START:END[,START:END...] (default: from the mean I)");
+  cmd->add_option("--continuum-depth", a->depth_fraction,
+                  "automatic continuum: mean I within this fraction of the line depth below its maximum")
+      ->capture_default_str();
+  cmd->add_option("--strong-v-sigma", a->strong_v_sigma, "strong-V samples: |V| above this many sigma")->capture_default_str();
+  cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V")->capture_default_str();
+  cmd->add_flag("--overwrite", a->overwrite, "replace an existing -o output");
+  cmd->callback([a] { RunCrosstalk(*a); });
+}
+
 }  // namespace
 
 void AddCalibrateCommand(CLI::App& app) {
@@ -233,6 +349,7 @@ void AddCalibrateCommand(CLI::App& app) {
   cmd->require_subcommand(1);
   cmd->footer("Run 'zeeline calibrate <modulation|crosstalk|magnet> --help'. Model and formats: docs/polarimetry.md.");
   AddModulation(cmd);
+  AddCrosstalk(cmd);
 }
 
 }  // namespace zeeline::cli
