@@ -12,12 +12,16 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/line_selection.hpp"
 #include "cli/output_paths.hpp"
+#include "synth/profile_plot.hpp"
 #include "io/residual_plot.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
+#include "zeeline/io/air_vacuum.hpp"
 #include "zeeline/io/stokes_transform_writer.hpp"
 #include "zeeline/polarimetry/crosstalk.hpp"
+#include "zeeline/polarimetry/magnet_fit.hpp"
 #include "zeeline/polarimetry/modulation_fit.hpp"
 
 namespace zeeline::cli {
@@ -342,6 +346,228 @@ void AddCrosstalk(CLI::App* parent) {
   cmd->callback([a] { RunCrosstalk(*a); });
 }
 
+// ---------------------------------------------------------------- magnet
+const char* kMagnetSafety =
+    "safety: strong magnetic fields endanger people with pacemakers and implants, turn ferromagnetic objects into "
+    "projectiles and can quench superconducting magnets; discharge lamps run at high voltage and emit UV. Follow "
+    "your local safety rules and licensed practice (docs/polarimetry.md).";
+
+struct MagnetArgs {
+  std::vector<std::string> spectra;
+  LineSelectionArgs line;
+  std::string field, instrument_fwhm, png;
+  double damping = 0.0;
+  int v_sign = 1;
+  bool json = false, overwrite = false;
+};
+
+pol::MagnetSpectrum ParseSpectrumArg(const std::string& arg, int v_sign) {
+  const std::size_t colon = arg.rfind(':');
+  const std::size_t comma = colon == std::string::npos ? std::string::npos : arg.find(',', colon);
+  if (colon == std::string::npos || comma == std::string::npos)
+    throw OptionError("--spectrum '" + arg + "': expected FILE:INCLINATION,AZIMUTH (degrees), e.g. long.csv:0,0");
+  pol::MagnetSpectrum s;
+  try {
+    std::size_t used = 0;
+    const std::string inc = arg.substr(colon + 1, comma - colon - 1), az = arg.substr(comma + 1);
+    s.inclination_deg = std::stod(inc, &used);
+    if (used != inc.size()) throw std::invalid_argument(inc);
+    s.azimuth_deg = std::stod(az, &used);
+    if (used != az.size()) throw std::invalid_argument(az);
+  } catch (const std::exception&) {
+    throw OptionError("--spectrum '" + arg + "': INCLINATION,AZIMUTH must be two numbers in degrees");
+  }
+  if (!(s.inclination_deg >= 0.0 && s.inclination_deg <= 180.0))
+    throw OptionError("--spectrum '" + arg + "': inclination " + std::to_string(s.inclination_deg) +
+                      " deg outside 0..180");
+  SpectrumReadOptions ro;
+  ro.v_sign = v_sign;
+  s.spectrum = ReadSpectrum(arg.substr(0, colon), ro);
+  return s;
+}
+
+std::string MagnetPngPath(const std::string& png, std::size_t k) {
+  if (k == 0) return png;
+  const std::filesystem::path p(png);
+  return (p.parent_path() / (p.stem().string() + "_" + std::to_string(k + 1) + p.extension().string())).string();
+}
+
+void RunMagnet(const MagnetArgs& a) {
+  if (!a.png.empty())
+    for (std::size_t k = 0; k < a.spectra.size(); ++k) CheckOutputFile(MagnetPngPath(a.png, k), a.overwrite, "--png");
+  if (a.spectra.empty()) throw OptionError("give at least one --spectrum FILE:INCLINATION,AZIMUTH");
+  if (a.v_sign != 1 && a.v_sign != -1) throw OptionError("--v-sign = " + std::to_string(a.v_sign) + ": need +1 or -1");
+  const SelectedLine line = ResolveLine(a.line);
+  pol::MagnetFitOptions o;
+  o.nominal_field_gauss = ParseField_gauss(a.field);
+  o.pattern = line.pattern;
+  if (!a.instrument_fwhm.empty()) o.instrument_fwhm_nm = ParseWavelength_nm(a.instrument_fwhm);
+  o.damping = a.damping;
+  std::vector<pol::MagnetSpectrum> spectra;
+  for (const std::string& s : a.spectra) spectra.push_back(ParseSpectrumArg(s, a.v_sign));
+  o.rest_wavelength_nm = line.rest_wavelength_nm;
+  const auto& frame = spectra.front().spectrum.frame;
+  if (line.frame && frame && *line.frame != *frame)
+    o.rest_wavelength_nm = ConvertWavelength_nm(line.rest_wavelength_nm, *line.frame, *frame);
+  if (const std::string bad = o.Validate(); !bad.empty()) throw OptionError(bad);
+  const pol::MagnetFitResult r = pol::FitMagnet(spectra, o);
+
+  if (!a.png.empty()) {
+    for (std::size_t k = 0; k < spectra.size(); ++k) {
+      const Spectrum1D& s = spectra[k].spectrum;
+      const Eigen::Index n = static_cast<Eigen::Index>(s.size());
+      Eigen::ArrayXd w(n);
+      StokesArray st(n, 4);
+      for (Eigen::Index i = 0; i < n; ++i) {
+        const std::size_t u = static_cast<std::size_t>(i);
+        w(i) = s.wavelength_nm[u];
+        st(i, 0) = s.I[u];
+        st(i, 1) = s.Q[u];
+        st(i, 2) = s.U[u];
+        st(i, 3) = s.V[u];
+      }
+      StokesPlotOptions p;
+      p.centre_nm = o.rest_wavelength_nm;
+      p.divide_by_continuum = false;
+      p.title = "zeeline calibrate magnet: " + std::filesystem::path(s.source).filename().string() + "  (inclination " +
+                Num(spectra[k].inclination_deg, "%g") + ", azimuth " + Num(spectra[k].azimuth_deg, "%g") + " deg)";
+      for (int q = 0; q < 4; ++q) {
+        PlotCurve c;
+        c.panel = q;
+        c.y = r.spectra[k].model.col(q).array();
+        p.overlays.push_back(c);
+      }
+      p.annotation = {"field scale f = " + Num(r.field_scale, "%.5f") + " +- " + Num(r.field_scale_err, "%.2g"),
+                      "B = " + Num(r.field_scale * o.nominal_field_gauss, "%.1f") + " G (nominal " +
+                          Num(o.nominal_field_gauss, "%.1f") + " G)",
+                      "v_sign " + std::to_string(r.v_sign) + ", chi2_reduced " + Num(r.chi2_reduced, "%.3f"),
+                      "red: model (observed = X emitted)"};
+      try {
+        WriteStokesPlotPng(MagnetPngPath(a.png, k), w, st, p);
+      } catch (const PlotError& e) {
+        throw OutputError(e.what());
+      }
+    }
+  }
+  auto matrix_json = [&](JsonWriter& j, const Eigen::Matrix4d& m) {
+    j.BeginArray();
+    for (int row = 0; row < 4; ++row) {
+      j.BeginArray();
+      for (int c = 0; c < 4; ++c) {
+        if (r.column_constrained[static_cast<std::size_t>(c)])
+          j.Value(m(row, c));
+        else
+          j.Null();
+      }
+      j.EndArray();
+    }
+    j.EndArray();
+  };
+  if (a.json) {
+    JsonWriter j(std::cout);
+    j.BeginObject();
+    j.Key("line").Value(line.description);
+    j.Key("nominal_field_gauss").Value(o.nominal_field_gauss);
+    j.Key("lorentz_shift_nm").Value(LorentzUnit_nm(o.rest_wavelength_nm, o.nominal_field_gauss));
+    j.Key("field_scale").Value(r.field_scale).Key("field_scale_err").Value(r.field_scale_err);
+    j.Key("field_gauss").Value(r.field_scale * o.nominal_field_gauss);
+    j.Key("field_err_gauss").Value(r.field_scale_err * o.nominal_field_gauss);
+    j.Key("response_matrix");
+    matrix_json(j, r.response);
+    j.Key("response_matrix_err");
+    matrix_json(j, r.response_err);
+    j.Key("unconstrained").BeginArray();
+    for (const std::string& c : r.unconstrained) j.Value(c);
+    j.EndArray();
+    if (r.v_sign != 0)
+      j.Key("v_sign").Value(r.v_sign);
+    else
+      j.Key("v_sign").Null();
+    j.Key("doppler_width_nm").Value(r.doppler_width_nm).Key("doppler_width_err_nm").Value(r.doppler_width_err_nm);
+    j.Key("chi2_reduced").Value(r.chi2_reduced).Key("dof").Value(r.dof).Key("converged").Value(r.converged);
+    j.Key("spectra").BeginArray();
+    for (std::size_t k = 0; k < spectra.size(); ++k) {
+      const pol::MagnetSpectrumFit& f = r.spectra[k];
+      j.BeginObject();
+      j.Key("file").Value(spectra[k].spectrum.source);
+      j.Key("inclination_deg").Value(spectra[k].inclination_deg).Key("azimuth_deg").Value(spectra[k].azimuth_deg);
+      j.Key("centre_nm").Value(f.centre_nm).Key("centre_err_nm").Value(f.centre_err_nm);
+      j.Key("amplitude").Value(f.amplitude).Key("amplitude_err").Value(f.amplitude_err);
+      j.Key("background").Value(f.background).Key("background_err").Value(f.background_err);
+      j.Key("noise").Array(std::vector<double>(f.noise.begin(), f.noise.end()));
+      j.Key("chi2_reduced").Value(f.chi2_reduced);
+      j.EndObject();
+    }
+    j.EndArray();
+    Warnings(j, r.warnings);
+    j.Key("safety").Value(kMagnetSafety);
+    j.EndObject();
+    std::cout << "\n";
+    std::fprintf(stderr, "%s\n", kMagnetSafety);
+    return;
+  }
+  std::printf("%s\n\n", kMagnetSafety);
+  std::printf("line: %s\n", line.description.c_str());
+  std::printf("field scale f = B_true / B_nominal = %.5f +- %.2g  (B = %.1f +- %.1f G, nominal %.1f G)\n", r.field_scale,
+              r.field_scale_err, r.field_scale * o.nominal_field_gauss, r.field_scale_err * o.nominal_field_gauss,
+              o.nominal_field_gauss);
+  std::printf("Doppler width %.4g +- %.2g pm, chi2_reduced %.3f (%d dof)%s\n", r.doppler_width_nm * 1e3,
+              r.doppler_width_err_nm * 1e3, r.chi2_reduced, r.dof, r.converged ? "" : ", NOT CONVERGED");
+  std::printf("response matrix X (observed = X emitted; rows I Q U V, columns I Q U V; X_II = 1):\n");
+  for (int row = 0; row < 4; ++row) {
+    std::string t = std::string("  ") + kStokesNames[row] + " ";
+    for (int c = 0; c < 4; ++c)
+      t += r.column_constrained[static_cast<std::size_t>(c)]
+               ? " " + Num(r.response(row, c), "%+8.4f") + " +-" + Num(r.response_err(row, c), "%-7.2g")
+               : std::string(15, ' ') + "null";
+    std::printf("%s\n", t.c_str());
+  }
+  if (!r.unconstrained.empty()) {
+    std::string u;
+    for (const std::string& c : r.unconstrained) u += (u.empty() ? "" : ", ") + c;
+    std::printf("unconstrained columns (null; no spectrum excites them independently): %s\n", u.c_str());
+  }
+  std::printf("v_sign (sign of the V response, a handedness check): %s\n",
+              r.v_sign == 0 ? "not determined" : (r.v_sign > 0 ? "+1" : "-1 (V is flipped somewhere in the chain)"));
+  for (std::size_t k = 0; k < spectra.size(); ++k)
+    std::printf("  %s (incl %g, azim %g deg): centre %.5f nm, amplitude %.4g, chi2_reduced %.3f\n",
+                spectra[k].spectrum.source.c_str(), spectra[k].inclination_deg, spectra[k].azimuth_deg,
+                r.spectra[k].centre_nm, r.spectra[k].amplitude, r.spectra[k].chi2_reduced);
+  for (const std::string& w : r.warnings) std::printf("warning: %s\n", w.c_str());
+  if (!a.png.empty())
+    for (std::size_t k = 0; k < spectra.size(); ++k) std::printf("picture: %s\n", MagnetPngPath(a.png, k).c_str());
+}
+
+void AddMagnet(CLI::App* parent) {
+  auto a = std::make_shared<MagnetArgs>();
+  auto* cmd = parent->add_subcommand(
+      "magnet", "Check sign, scale and crosstalk of the whole chain on a lamp line in a magnet of known field");
+  cmd->footer(
+      "Each --spectrum is a demodulated lamp spectrum (measure's table or FITS formats) with the field geometry:\n"
+      "inclination of B from the line of sight (toward the observer) and azimuth from +x, in degrees.\n"
+      "Fits the field scale f = B_true/B_nominal, the line width, centre/amplitude/background per spectrum and the\n"
+      "response matrix X (observed = X emitted, X_II = 1) in the columns the geometries excite.\n"
+      "SAFETY: strong magnets (pacemakers, implants, projectiles, quench), high-voltage discharge lamps and UV:\n"
+      "follow local safety rules and licensed practice. Model and JSON keys: docs/polarimetry.md.\n"
+      "Examples:\n"
+      "  zeeline calibrate magnet --spectrum demo_maps/calibration/cd_long.csv:0,0 \\\n"
+      "      --spectrum demo_maps/calibration/cd_trans.csv:90,0 --line CdI_6438 --catalog demo_maps/lines.csv \\\n"
+      "      --field 10kG --instrument-fwhm 2pm --png magnet.png\n"
+      "  zeeline calibrate magnet --spectrum ne.fits:0,0 --lower 'jK(2P3/2,s,3/2,2)' --upper 'jK(2P3/2,p,5/2,3)' \\\n"
+      "      --wavelength 640.2248nm --field 1.5T --json");
+  cmd->add_option("--spectrum", a->spectra, "FILE:INCLINATION,AZIMUTH (repeatable)")->required();
+  AddLineSelectionOptions(cmd, a->line, "default: the frame of the spectra (FITS CTYPE1), tables have none");
+  cmd->add_option("--field", a->field, "nominal field of the magnet, e.g. 10kG, 1T")->required();
+  cmd->add_option("--instrument-fwhm", a->instrument_fwhm, "Gaussian instrument profile FWHM, e.g. 2pm (default 0)");
+  cmd->add_option("--damping", a->damping, "Voigt damping of the components (Doppler units), kept fixed")
+      ->capture_default_str();
+  cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V")->capture_default_str();
+  cmd->add_flag("--json", a->json, "print the result as one JSON object");
+  cmd->add_option("--png", a->png, "data and model per spectrum: P.png, then P_2.png, ...");
+  cmd->add_flag("--overwrite", a->overwrite, "replace existing --png outputs");
+  cmd->callback([a] { RunMagnet(*a); });
+}
+
 }  // namespace
 
 void AddCalibrateCommand(CLI::App& app) {
@@ -350,6 +576,7 @@ void AddCalibrateCommand(CLI::App& app) {
   cmd->footer("Run 'zeeline calibrate <modulation|crosstalk|magnet> --help'. Model and formats: docs/polarimetry.md.");
   AddModulation(cmd);
   AddCrosstalk(cmd);
+  AddMagnet(cmd);
 }
 
 }  // namespace zeeline::cli
