@@ -4,6 +4,7 @@
 #include <iostream>
 #include <memory>
 #include <string>
+#include <variant>
 #include <vector>
 
 #include "cli/commands.hpp"
@@ -123,7 +124,7 @@ void RunInfo(const InfoArgs& a) {
 
 // ---------------------------------------------------------------------------- view
 struct ViewArgs {
-  std::string maps;
+  std::string maps, truth;
   std::string out_dir;
   std::vector<double> percentiles;
   bool overwrite = false;
@@ -145,7 +146,7 @@ void RunView(const ViewArgs& a) {
   const std::string problem = q.Validate();
   if (!problem.empty()) throw OptionError("--percentiles: " + problem);
   CheckOutputDirectory(a.out_dir, "-o");
-  for (const auto& t : RenderQuicklooks(a.maps, a.out_dir, q)) std::printf("%s\n", t.c_str());
+  for (const auto& t : RenderQuicklooks(a.maps, a.out_dir, q, a.truth)) std::printf("%s\n", t.c_str());
 }
 
 }  // namespace
@@ -163,10 +164,22 @@ std::vector<std::string> QuicklookTargets(const std::string& maps_path, const st
 }
 
 std::vector<std::string> RenderQuicklooks(const std::string& maps_path, const std::string& out_dir,
-                                          const QuicklookOptions& q) {
+                                          const QuicklookOptions& q, const std::string& truth_path) {
   namespace fs = std::filesystem;
-  const std::vector<ImageHdu> hdus = ReadImageHdus(maps_path);  // FitsError -> exit 1
+  std::vector<ImageHdu> hdus = ReadImageHdus(maps_path);  // FitsError -> exit 1
   if (hdus.empty()) throw FitsError("'" + maps_path + "': no 2-D image HDU to render");
+  // Truth maps (TRUE_<NAME> of a simulated cube) go right after the result they describe.
+  if (!truth_path.empty()) {
+    std::vector<ImageHdu> with_truth;
+    const std::vector<ImageHdu> truth = ReadImageHdus(truth_path);
+    for (auto& h : hdus) {
+      const std::string name = h.extname;
+      with_truth.push_back(std::move(h));
+      for (const auto& t : truth)
+        if (t.extname == "TRUE_" + name && t.naxes == with_truth.back().naxes) with_truth.push_back(t);
+    }
+    hdus = std::move(with_truth);
+  }
   std::vector<std::string> names;
   for (const auto& h : hdus) names.push_back(h.extname);
   const std::vector<std::string> targets = QuicklookTargets(maps_path, out_dir, names);
@@ -184,6 +197,26 @@ std::vector<std::string> RenderQuicklooks(const std::string& maps_path, const st
 
   std::vector<QuicklookMap> maps;
   for (const auto& h : hdus) maps.push_back(QuicklookFromHdu(h));
+  auto find = [&](const std::string& name) -> int {
+    for (std::size_t i = 0; i < hdus.size(); ++i)
+      if (hdus[i].extname == name) return static_cast<int>(i);
+    return -1;
+  };
+  // The azimuth of a transverse field below its detection threshold is noise: faded.
+  const int az = find(map_names::kAzimuth), bt = find(map_names::kBtrans);
+  const int bts = find(std::string(map_names::kBtrans) + map_names::kErrorSuffix);
+  if (az >= 0 && bt >= 0 && bts >= 0) {
+    double k = 3.0;
+    for (const auto& kw : hdus[static_cast<std::size_t>(az)].keywords)
+      if (kw.key == "DETSIG" && std::holds_alternative<double>(kw.value)) k = std::get<double>(kw.value);
+    FadeWeakAzimuth(maps[static_cast<std::size_t>(az)], hdus[static_cast<std::size_t>(bt)].values,
+                    hdus[static_cast<std::size_t>(bts)].values, k);
+  }
+  // A truth map and its result share one colour scale.
+  for (std::size_t i = 0; i < hdus.size(); ++i) {
+    const int t = find("TRUE_" + hdus[i].extname);
+    if (t >= 0 && maps[i].categories.empty()) ShareColourLimits({&maps[i], &maps[static_cast<std::size_t>(t)]}, q);
+  }
   try {
     for (std::size_t i = 0; i < maps.size(); ++i) WriteMapPng(targets[i], maps[i], q);
     WriteSummaryPng(sheet, maps, fs::path(maps_path).filename().string(), q);
@@ -215,9 +248,12 @@ void AddViewCommand(CLI::App& app) {
       "Writes DIR/<name>_<extname>.png per map and DIR/<name>_summary.png; prints their paths.\n"
       "Examples:\n"
       "  zeeline view maps.fits\n"
-      "  zeeline view maps.fits -o quicklook --percentiles 2,98 --overwrite");
+      "  zeeline view maps.fits -o quicklook --percentiles 2,98 --overwrite\n"
+      "  zeeline view maps.fits --truth demo_maps/bipolar_region.fits -o compare");
   cmd->add_option("maps", args->maps, "map file (FITS, e.g. written by 'zeeline map')")->required();
   cmd->add_option("-o,--output-dir", args->out_dir, "directory for the PNG files (default: next to the input)");
+  cmd->add_option("--truth", args->truth,
+                  "a simulated cube: draw its TRUE_<NAME> maps next to NAME on the same colour scale");
   cmd->add_option("--percentiles", args->percentiles, "colour limits as two percentiles (default 1,99)")->delimiter(',');
   cmd->add_flag("--overwrite", args->overwrite, "replace existing PNG files");
   cmd->callback([args] { RunView(*args); });

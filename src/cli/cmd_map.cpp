@@ -223,8 +223,9 @@ void RunMap(const MapArgs& a) {
   }
   if (!info.stokes.empty() && info.StokesIndex(StokesParameter::kQ) < 0 && !a.quiet)
     std::fprintf(stderr,
-                 "zeeline: note: %s has no Stokes Q/U: no B_TRANS or B_AZIM; B_LOS and V_LOS everywhere, B_TOTAL "
-                 "and B_INCL only where the sigma groups are resolved (split)\n",
+                 "zeeline: note: %s has no Stokes Q/U: no B_AZIM; B_LOS and V_LOS everywhere; B_TOTAL, B_INCL "
+                 "and B_TRANS only where the sigma groups are resolved (split |B| with the centre-of-gravity "
+                 "B_LOS)\n",
                  a.cube.c_str());
 
   FieldMaps maps;
@@ -253,6 +254,12 @@ void RunMap(const MapArgs& a) {
   method.keywords.push_back({"METH3", std::string("split"), "resolved splitting"});
   method.keywords.push_back({"METH4", std::string("me"), "Milne-Eddington inversion"});
   hdus.push_back(method);
+  for (ImageHdu& h : hdus)
+    if (h.extname == map_names::kAzimuth) {  // for readers and the quicklooks
+      h.keywords.push_back({"AZRANGE", static_cast<long long>(o.disambiguate ? 360 : 180),
+                            o.disambiguate ? "B_AZIM in [0, 360) deg: disambiguated" : "B_AZIM in [0, 180) deg: 180 deg ambiguous"});
+      h.keywords.push_back({"DETSIG", o.detection_sigma, "B_TRANS detection threshold in sigma"});
+    }
   if (!maps.disambiguation.empty()) {
     ImageHdu d = MakeMap("AZIM_PICK", maps.nx, maps.ny,
                          std::vector<double>(maps.disambiguation.begin(), maps.disambiguation.end()));
@@ -267,6 +274,13 @@ void RunMap(const MapArgs& a) {
   ImageHdu quality = MakeMap(map_names::kQuality, maps.nx, maps.ny,
                              std::vector<double>(maps.quality.begin(), maps.quality.end()));
   quality.type = FitsPixelType::kInt32;
+  // QBITn names bit n (value 2^n) with the library's list (io/quality_flags.hpp, docs/fits.md).
+  for (int b = 0; b < 31; ++b) {
+    const std::vector<std::string> name = QualityBitNames(1u << b);
+    if (name.empty() || name[0] == "UNKNOWN") continue;
+    quality.keywords.push_back({"QBIT" + std::to_string(b), name[0], "QUALITY bit " + std::to_string(b) +
+                                                                         " (value " + std::to_string(1u << b) + ")"});
+  }
   hdus.push_back(quality);
 
   FitsWriteOptions w;
@@ -292,7 +306,7 @@ void RunMap(const MapArgs& a) {
   if (!a.png_dir.empty()) {
     QuicklookOptions q;
     q.overwrite = a.overwrite;
-    pngs = RenderQuicklooks(a.output, a.png_dir, q);
+    pngs = RenderQuicklooks(a.output, a.png_dir, q, a.cube);  // truth maps of a simulated cube, if any
   }
 
   if (!a.quiet) {

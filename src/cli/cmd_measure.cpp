@@ -258,26 +258,6 @@ std::vector<std::string> Summary(const Spectrum1D& s, const SelectedLine& line, 
   return t;
 }
 
-// Wraps long lines for the PNG text column.
-std::vector<std::string> Wrap(const std::vector<std::string>& lines, std::size_t width) {
-  std::vector<std::string> out;
-  for (const std::string& l : lines) {
-    std::string rest = l;
-    std::string indent;
-    while (rest.size() > width) {
-      std::size_t cut = rest.rfind(' ', width);
-      if (cut == std::string::npos || cut < 10) cut = width;
-      out.push_back(indent + rest.substr(0, cut));
-      rest = rest.substr(cut);
-      while (!rest.empty() && rest.front() == ' ') rest.erase(0, 1);
-      indent = "      ";
-      width = std::max<std::size_t>(width, 20) - (indent.size() && out.size() == 1 ? 0 : 0);
-    }
-    out.push_back(indent + rest);
-  }
-  return out;
-}
-
 void WritePng(const std::string& path, const Spectrum1D& s, const SelectedLine& line, const Measurement& m) {
   const ComponentFitResult& c = m.components;
   // Plot the fit window (where the model is defined); the whole spectrum when the fit failed.
@@ -334,7 +314,7 @@ void WritePng(const std::string& path, const Spectrum1D& s, const SelectedLine& 
     v.dashed = true;
     p.overlays.push_back(v);
   }
-  std::vector<std::string> text = Wrap(Summary(s, line, m), 52);
+  std::vector<std::string> text = Summary(s, line, m);  // wrapped to the column by the picture writer
   text.push_back("");
   text.push_back("red: component model; dashed colours: groups;");
   text.push_back("dashed red on V: weak-field V with B_LOS(wfa)");

@@ -40,8 +40,10 @@ void AddCalibrateCommand(CLI::App& app);
 std::vector<std::string> QuicklookTargets(const std::string& maps_path, const std::string& out_dir,
                                           const std::vector<std::string>& extnames);
 /// Renders every 2-D image HDU of a map file plus a summary sheet (shared by `view` and `map --png`);
-/// refuses before writing anything when a target exists and options.overwrite is false. Returns the paths.
+/// refuses before writing anything when a target exists and options.overwrite is false. With truth_path
+/// (a cube from `simulate`), each map NAME that has a TRUE_NAME there is followed by that truth map on the
+/// same colour scale. B_AZIM is faded where B_TRANS is below its detection threshold. Returns the paths.
 std::vector<std::string> RenderQuicklooks(const std::string& maps_path, const std::string& out_dir,
-                                          const zeeline::QuicklookOptions& options);
+                                          const zeeline::QuicklookOptions& options, const std::string& truth_path = "");
 
 }  // namespace zeeline::cli

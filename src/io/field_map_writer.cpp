@@ -373,9 +373,29 @@ std::vector<ImageHdu> ReadImageHdus(const std::string& path) {
     char value[FLEN_VALUE] = {0};
     int st = 0;
     if (fits_read_key(f, TSTRING, "EXTNAME", value, nullptr, &st) == 0) h.extname = io_detail::Trim(value);
-    else h.extname = "HDU" + std::to_string(i);
+    else h.extname = "HDU" + std::to_string(i - 1);  // the file.fits[n] index
     st = 0;
     if (fits_read_key(f, TSTRING, "BUNIT", value, nullptr, &st) == 0) h.bunit = io_detail::Trim(value);
+    // The keywords the quicklooks use: code names of METHOD (METHn) and QUALITY (QBITn), the azimuth range
+    // (AZRANGE) and detection threshold (DETSIG) written with B_AZIM.
+    std::vector<std::string> names = {"AZRANGE", "DETSIG"};
+    for (int k = 0; k < 32; ++k) names.push_back("QBIT" + std::to_string(k));
+    for (int k = 0; k < 10; ++k) names.push_back("METH" + std::to_string(k));
+    for (const std::string& key : names) {
+      char text[FLEN_VALUE] = {0}, comment[FLEN_COMMENT] = {0};
+      st = 0;
+      if (fits_read_keyword(f, key.c_str(), text, comment, &st) != 0) continue;
+      const std::string v = io_detail::Trim(text);
+      if (!v.empty() && v.front() == '\'') {
+        char s[FLEN_VALUE] = {0};
+        st = 0;
+        if (fits_read_key(f, TSTRING, key.c_str(), s, nullptr, &st) == 0) h.keywords.push_back({key, io_detail::Trim(s), comment});
+      } else {
+        double d = 0.0;
+        st = 0;
+        if (fits_read_key(f, TDOUBLE, key.c_str(), &d, nullptr, &st) == 0) h.keywords.push_back({key, d, comment});
+      }
+    }
     fits_clear_errmsg();
     h.naxes = {static_cast<long>(nax[0]), static_cast<long>(nax[1])};
     h.type = bitpix == DOUBLE_IMG ? FitsPixelType::kFloat64

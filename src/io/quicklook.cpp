@@ -9,11 +9,13 @@
 #include <cstdio>
 #include <memory>
 #include <tuple>
+#include <variant>
 
 #include "io/atomic_file.hpp"
 #include "io/fits_util.hpp"
 #include "zeeline/core/constants.hpp"
 #include "zeeline/core/errors.hpp"
+#include "zeeline/io/spatial_wcs.hpp"
 
 namespace zeeline {
 
@@ -160,9 +162,10 @@ struct CairoSurface {
 };
 
 struct PanelGeometry {
-  static constexpr double kLeft = 58, kRight = 92, kTop = 34, kBottom = 44;
+  static constexpr double kLeft = 64, kTop = 34, kBottom = 44;
   double map_w, map_h;  // drawn map size
-  double width() const { return kLeft + map_w + kRight; }
+  double right = 92;    // colour bar, or the legend of a categorical map
+  double width() const { return kLeft + map_w + right; }
   double height() const { return kTop + map_h + kBottom; }
 };
 
@@ -170,7 +173,28 @@ PanelGeometry Geometry(const QuicklookMap& m, int size_px) {
   const double longest = static_cast<double>(std::max(m.nx, m.ny));
   double scale = size_px / longest;
   if (scale >= 1.0) scale = std::floor(scale);  // integer zoom keeps pixels square and sharp
-  return {std::max(1.0, std::round(static_cast<double>(m.nx) * scale)), std::max(1.0, std::round(static_cast<double>(m.ny) * scale))};
+  PanelGeometry g{std::max(1.0, std::round(static_cast<double>(m.nx) * scale)),
+                  std::max(1.0, std::round(static_cast<double>(m.ny) * scale))};
+  if (!m.categories.empty()) {
+    std::size_t longest_name = 0;
+    for (const auto& c : m.categories) longest_name = std::max(longest_name, c.name.size());
+    g.right = 40 + 6.5 * static_cast<double>(longest_name);
+  }
+  return g;
+}
+
+// Colour of a categorical pixel: its category, or grey for a value without one.
+std::array<unsigned char, 3> CategoryColour(const QuicklookMap& m, double v) {
+  double key = v;
+  if (m.bit_flags && v != 0.0) {
+    const auto bits = static_cast<std::uint32_t>(v);
+    int b = 0;
+    while (b < 31 && !(bits & (1u << b))) ++b;
+    key = static_cast<double>(1u << b);
+  }
+  for (const auto& c : m.categories)
+    if (c.value == key) return c.rgb;
+  return {128, 128, 128};
 }
 
 void Text(cairo_t* cr, double x, double y, const std::string& s, double size, double align_x, double align_y,
@@ -200,10 +224,17 @@ void DrawPanel(cairo_t* cr, double ox, double oy, const QuicklookMap& m, const P
       const double v = m.values[static_cast<std::size_t>(y * m.nx + x)];
       std::uint32_t px = 0x808080u;  // NaN / Inf: neutral grey
       if (std::isfinite(v)) {
-        double t = span > 0 ? (v - lim[0]) / span : 0.5;
-        if (m.kind == ColourMapKind::kCyclic) t -= std::floor(t);
-        t = std::clamp(t, 0.0, 1.0);
-        const auto& c = lut.rgb[LutIndex(t)];
+        std::array<unsigned char, 3> c;
+        if (!m.categories.empty()) {
+          c = CategoryColour(m, v);
+        } else {
+          double t = span > 0 ? (v - lim[0]) / span : 0.5;
+          if (m.kind == ColourMapKind::kCyclic) t -= std::floor(t);
+          t = std::clamp(t, 0.0, 1.0);
+          c = lut.rgb[LutIndex(t)];
+        }
+        if (!m.faded.empty() && m.faded[static_cast<std::size_t>(y * m.nx + x)])
+          for (auto& ch : c) ch = static_cast<unsigned char>(std::lround(0.3 * ch + 0.7 * 255.0));
         px = (static_cast<std::uint32_t>(c[0]) << 16) | (static_cast<std::uint32_t>(c[1]) << 8) | c[2];
       }
       row[x] = px;
@@ -230,36 +261,62 @@ void DrawPanel(cairo_t* cr, double ox, double oy, const QuicklookMap& m, const P
   std::string title = m.title + (m.unit.empty() ? "" : " [" + m.unit + "]");
   Text(cr, mx + g.map_w / 2, oy + 8, title, 14, 0.5, 0.0, true);
 
-  // Axis ticks in FITS pixel numbers (pixel centre i + 1).
+  // Axis ticks in world units (arcsec) when the map has them, else in FITS pixel numbers (centre i + 1).
+  auto tick = [&](bool horizontal, double f, const std::string& label) {  // f: offset along the axis
+    if (horizontal) {
+      cairo_move_to(cr, mx + f, my + g.map_h);
+      cairo_line_to(cr, mx + f, my + g.map_h + 4);
+      cairo_stroke(cr);
+      Text(cr, mx + f, my + g.map_h + 6, label, 10, 0.5, 0.0);
+    } else {
+      cairo_move_to(cr, mx, my + g.map_h - f);
+      cairo_line_to(cr, mx - 4, my + g.map_h - f);
+      cairo_stroke(cr);
+      Text(cr, mx - 6, my + g.map_h - f, label, 10, 1.0, 0.5);
+    }
+  };
   auto axis = [&](long n, bool horizontal) {
     const double len = horizontal ? g.map_w : g.map_h;
-    const double step = std::max(1.0, NiceTickStep(static_cast<double>(n), 5));
-    for (double p = step; p <= static_cast<double>(n) + 1e-9; p += step) {
-      const double f = (p - 0.5) / static_cast<double>(n) * len;
-      if (horizontal) {
-        cairo_move_to(cr, mx + f, my + g.map_h);
-        cairo_line_to(cr, mx + f, my + g.map_h + 4);
-        cairo_stroke(cr);
-        Text(cr, mx + f, my + g.map_h + 6, TickLabel(p, step), 10, 0.5, 0.0);
-      } else {
-        cairo_move_to(cr, mx, my + len - f);
-        cairo_line_to(cr, mx - 4, my + len - f);
-        cairo_stroke(cr);
-        Text(cr, mx - 6, my + len - f, TickLabel(p, step), 10, 1.0, 0.5);
-      }
+    const std::optional<QuicklookWorldAxis>& world = horizontal ? m.x_world : m.y_world;
+    if (world && world->step != 0.0) {
+      const double a = world->origin - 0.5 * world->step, b = world->origin + (static_cast<double>(n) - 0.5) * world->step;
+      const double lo = std::min(a, b), hi = std::max(a, b);
+      const double step = NiceTickStep(hi - lo, 5);
+      for (double v = std::ceil(lo / step - 1e-9) * step; v <= hi + 1e-9 * step; v += step)
+        tick(horizontal, ((v - world->origin) / world->step + 0.5) / static_cast<double>(n) * len, TickLabel(v, step));
+      return;
     }
+    const double step = std::max(1.0, NiceTickStep(static_cast<double>(n), 5));
+    for (double p = step; p <= static_cast<double>(n) + 1e-9; p += step)
+      tick(horizontal, (p - 0.5) / static_cast<double>(n) * len, TickLabel(p, step));
   };
   axis(m.nx, true);
   axis(m.ny, false);
-  Text(cr, mx + g.map_w / 2, my + g.map_h + 22, "x [pixel]", 11, 0.5, 0.0);
+  Text(cr, mx + g.map_w / 2, my + g.map_h + 22, m.x_world ? m.x_world->label : "x [pixel]", 11, 0.5, 0.0);
   cairo_save(cr);
   cairo_translate(cr, ox + 12, my + g.map_h / 2);
   cairo_rotate(cr, -kPi / 2);
-  Text(cr, 0, 0, "y [pixel]", 11, 0.5, 0.5);
+  Text(cr, 0, 0, m.y_world ? m.y_world->label : "y [pixel]", 11, 0.5, 0.5);
   cairo_restore(cr);
 
-  // Colour bar.
   const double bx = mx + g.map_w + 14, bw = 16, bh = g.map_h;
+  if (!m.categories.empty()) {  // legend: one swatch and name per code
+    for (std::size_t k = 0; k < m.categories.size(); ++k) {
+      const auto& c = m.categories[k];
+      const double yk = my + 16.0 * static_cast<double>(k);
+      cairo_set_source_rgb(cr, c.rgb[0] / 255.0, c.rgb[1] / 255.0, c.rgb[2] / 255.0);
+      cairo_rectangle(cr, bx, yk + 2, 12, 12);
+      cairo_fill(cr);
+      cairo_set_source_rgb(cr, 0, 0, 0);
+      cairo_rectangle(cr, bx - 0.5, yk + 1.5, 13, 13);
+      cairo_stroke(cr);
+      Text(cr, bx + 18, yk + 8, c.name, 10, 0.0, 0.5);
+    }
+    return;
+  }
+  if (!m.fade_note.empty()) Text(cr, mx + g.map_w, oy + 22, m.fade_note, 9, 1.0, 0.0);
+
+  // Colour bar.
   for (int i = 0; i < static_cast<int>(bh); ++i) {
     const double t = 1.0 - (i + 0.5) / bh;
     const auto& c = lut.rgb[LutIndex(t)];
@@ -342,6 +399,72 @@ std::string QuicklookOptions::Validate() const {
   return "";
 }
 
+namespace {
+
+// Categorical colours (chosen for zeeline: distinct hues of similar weight, none close to white or grey).
+constexpr std::array<std::array<unsigned char, 3>, 10> kCategoryColours = {{{31, 119, 180},
+                                                                           {230, 120, 20},
+                                                                           {40, 160, 60},
+                                                                           {200, 40, 40},
+                                                                           {140, 90, 190},
+                                                                           {140, 86, 75},
+                                                                           {220, 110, 190},
+                                                                           {90, 90, 90},
+                                                                           {180, 180, 30},
+                                                                           {20, 180, 200}}};
+
+const HeaderValue* FindKeyword(const ImageHdu& hdu, const std::string& key) {
+  for (const auto& k : hdu.keywords)
+    if (k.key == key) return &k;
+  return nullptr;
+}
+
+std::string KeywordText(const ImageHdu& hdu, const std::string& key, const std::string& fallback) {
+  const HeaderValue* k = FindKeyword(hdu, key);
+  if (k && std::holds_alternative<std::string>(k->value)) return std::get<std::string>(k->value);
+  return fallback;
+}
+
+double KeywordNumber(const ImageHdu& hdu, const std::string& key, double fallback) {
+  const HeaderValue* k = FindKeyword(hdu, key);
+  if (!k) return fallback;
+  if (std::holds_alternative<double>(k->value)) return std::get<double>(k->value);
+  if (std::holds_alternative<long long>(k->value)) return static_cast<double>(std::get<long long>(k->value));
+  return fallback;
+}
+
+void SetWorldAxes(const ImageHdu& hdu, QuicklookMap& m) {
+  if (hdu.wcs_header.empty()) return;
+  try {
+    const SpatialWcs wcs(hdu.wcs_header);
+    if (!wcs.helioprojective()) return;
+    const double cx = 0.5 * static_cast<double>(m.nx - 1), cy = 0.5 * static_cast<double>(m.ny - 1);
+    // Linear along the central row / column (exact for the small fields of view of solar maps).
+    const auto x0 = wcs.PixelToWorld(0.0, cy), x1 = wcs.PixelToWorld(static_cast<double>(m.nx - 1), cy);
+    const auto y0 = wcs.PixelToWorld(cx, 0.0), y1 = wcs.PixelToWorld(cx, static_cast<double>(m.ny - 1));
+    auto wrap = [](double deg) { return deg > 180.0 ? deg - 360.0 : deg; };  // helioprojective longitude
+    const auto scale = wcs.PixelScaleArcsec(static_cast<double>(m.nx), static_cast<double>(m.ny));
+    QuicklookWorldAxis ax, ay;
+    ax.origin = wrap(x0[0]) * 3600.0;
+    ax.step = m.nx > 1 ? (wrap(x1[0]) - wrap(x0[0])) * 3600.0 / static_cast<double>(m.nx - 1) : scale[0];
+    ay.origin = y0[1] * 3600.0;
+    ay.step = m.ny > 1 ? (y1[1] - y0[1]) * 3600.0 / static_cast<double>(m.ny - 1) : scale[1];
+    char buf[96];
+    std::snprintf(buf, sizeof buf, "helioprojective x [arcsec]  (%.3g arcsec/pixel)", scale[0]);
+    ax.label = buf;
+    std::snprintf(buf, sizeof buf, "helioprojective y [arcsec]  (%.3g arcsec/pixel)", scale[1]);
+    ay.label = buf;
+    if (std::isfinite(ax.step) && std::isfinite(ay.step) && ax.step != 0.0 && ay.step != 0.0) {
+      m.x_world = ax;
+      m.y_world = ay;
+    }
+  } catch (const FitsError&) {
+    // A WCS the picture cannot use: keep pixel axes.
+  }
+}
+
+}  // namespace
+
 QuicklookMap QuicklookFromHdu(const ImageHdu& hdu) {
   if (hdu.naxes.size() != 2) throw OptionError("quicklook: HDU '" + hdu.extname + "' is not a 2-D image");
   QuicklookMap m;
@@ -350,16 +473,71 @@ QuicklookMap QuicklookFromHdu(const ImageHdu& hdu) {
   m.nx = hdu.naxes[0];
   m.ny = hdu.naxes[1];
   m.values = hdu.values;
-  m.kind = DefaultColourMap(hdu.extname);
-  if (hdu.extname == map_names::kAzimuth) {
+  const bool truth = hdu.extname.rfind("TRUE_", 0) == 0;
+  const std::string base = truth ? hdu.extname.substr(5) : hdu.extname;  // a truth map looks like its result
+  m.kind = DefaultColourMap(base);
+  SetWorldAxes(hdu, m);
+  if (base == map_names::kAzimuth) {
+    double top = KeywordNumber(hdu, "AZRANGE", 0.0);
+    if (!(top == 180.0 || top == 360.0)) {  // no keyword: from the data
+      top = 180.0;
+      for (double v : hdu.values)
+        if (std::isfinite(v) && v >= 180.0) top = 360.0;
+    }
     m.vmin = 0.0;
-    m.vmax = 180.0;
-  } else if (hdu.extname == map_names::kInclination) {
+    m.vmax = top;
+  } else if (hdu.extname == map_names::kMethod) {
+    m.categories.push_back({0.0, "0 none", {255, 255, 255}});
+    static const char* kFallback[] = {"", "wfa", "cog", "split", "me"};
+    for (int code = 1; code <= 9; ++code) {
+      const std::string name = KeywordText(hdu, "METH" + std::to_string(code), code <= 4 ? kFallback[code] : "");
+      if (!name.empty())
+        m.categories.push_back({static_cast<double>(code), std::to_string(code) + " " + name,
+                                kCategoryColours[static_cast<std::size_t>(code - 1) % kCategoryColours.size()]});
+    }
+  } else if (hdu.extname == map_names::kQuality) {
+    m.bit_flags = true;
+    m.categories.push_back({0.0, "0 OK", {255, 255, 255}});
+    for (int b = 0; b < 31; ++b) {
+      const auto bit = 1u << b;
+      const std::vector<std::string> known = QualityBitNames(bit);
+      const std::string name = KeywordText(hdu, "QBIT" + std::to_string(b), known.empty() || known[0] == "UNKNOWN" ? "" : known[0]);
+      if (!name.empty())
+        m.categories.push_back({static_cast<double>(bit), std::to_string(bit) + " " + name,
+                                kCategoryColours[static_cast<std::size_t>(b) % kCategoryColours.size()]});
+    }
+  } else if (base == map_names::kInclination) {
     m.vmin = 0.0;
     m.vmax = 180.0;
     m.centre = 90.0;
   }
   return m;
+}
+
+void FadeWeakAzimuth(QuicklookMap& azimuth, const std::vector<double>& b_trans, const std::vector<double>& b_trans_sigma,
+                     double detection_sigma) {
+  const std::size_t n = azimuth.values.size();
+  if (b_trans.size() != n || b_trans_sigma.size() != n)
+    throw OptionError("quicklook: B_TRANS and B_TRANS_SIGMA must have the azimuth map's " + std::to_string(n) + " pixels");
+  azimuth.faded.assign(n, 0);
+  for (std::size_t i = 0; i < n; ++i)
+    azimuth.faded[i] = !(std::isfinite(b_trans[i]) && std::isfinite(b_trans_sigma[i]) &&
+                         b_trans[i] >= detection_sigma * b_trans_sigma[i]);
+  char buf[80];
+  std::snprintf(buf, sizeof buf, "faded: B_TRANS < %g sigma", detection_sigma);
+  azimuth.fade_note = buf;
+}
+
+void ShareColourLimits(const std::vector<QuicklookMap*>& maps, const QuicklookOptions& options) {
+  if (maps.empty()) return;
+  QuicklookMap all = *maps.front();
+  for (std::size_t k = 1; k < maps.size(); ++k)
+    all.values.insert(all.values.end(), maps[k]->values.begin(), maps[k]->values.end());
+  const auto lim = ColourLimits(all, options);
+  for (QuicklookMap* m : maps) {
+    m->vmin = lim[0];
+    m->vmax = lim[1];
+  }
 }
 
 std::array<double, 2> ColourLimits(const QuicklookMap& m, const QuicklookOptions& o) {

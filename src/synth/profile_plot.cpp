@@ -92,7 +92,87 @@ void DrawPanel(cairo_t* cr, const Panel& p, const Eigen::ArrayXd& x, const Eigen
   cairo_restore(cr);
 }
 
+constexpr int kTextColumnPx = 400;       // width of the annotation column right of the panels
+constexpr double kTextMarginPx = 12.0;   // left offset 5 px + right margin
+
+void SetAnnotationFont(cairo_t* cr) {
+  cairo_select_font_face(cr, "monospace", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
+  cairo_set_font_size(cr, 12.0);
+}
+
+// Wraps text lines to `max_px` with the current font, breaking only at spaces; a token wider than the
+// column by itself (a long file path) is broken after a '/', '_' or ',' when it has one, and only as a
+// last resort inside it. Continuation lines keep the line's indentation plus two spaces.
+std::vector<std::string> WrapToWidth(cairo_t* cr, const std::vector<std::string>& lines, double max_px) {
+  auto width = [cr](const std::string& t) {
+    cairo_text_extents_t e;
+    cairo_text_extents(cr, t.c_str(), &e);
+    return e.x_advance;
+  };
+  std::vector<std::string> out;
+  for (const std::string& line : lines) {
+    if (width(line) <= max_px) {
+      out.push_back(line);
+      continue;
+    }
+    const std::string indent(line.find_first_not_of(' ') == std::string::npos ? 0 : line.find_first_not_of(' '), ' ');
+    std::string current = indent, rest = line.substr(indent.size());
+    const std::string next_indent = indent + "  ";
+    while (!rest.empty()) {
+      const std::size_t sp = rest.find(' ');
+      std::string word = rest.substr(0, sp);
+      rest = sp == std::string::npos ? "" : rest.substr(sp + 1);
+      const bool fresh = current.find_first_not_of(' ') == std::string::npos;
+      const std::string candidate = fresh ? current + word : current + " " + word;
+      if (width(candidate) <= max_px) {
+        current = candidate;
+        continue;
+      }
+      if (!fresh) {
+        out.push_back(current);
+        current = next_indent;
+      }
+      // The word alone on a line: split an over-long token at a separator, else by characters.
+      while (width(current + word) > max_px && word.size() > 1) {
+        std::size_t cut = 0;
+        for (std::size_t k = 1; k < word.size(); ++k)
+          if (width(current + word.substr(0, k)) > max_px) break;
+          else if (word[k - 1] == '/' || word[k - 1] == '_' || word[k - 1] == ',') cut = k;
+        if (cut == 0)
+          for (cut = word.size() - 1; cut > 1 && width(current + word.substr(0, cut)) > max_px; --cut) {
+          }
+        out.push_back(current + word.substr(0, cut));
+        word = word.substr(cut);
+        current = next_indent;
+      }
+      current += word;
+    }
+    if (current.find_first_not_of(' ') != std::string::npos) out.push_back(current);
+  }
+  return out;
+}
+
 }  // namespace
+
+std::vector<std::string> WrapAnnotation(const std::vector<std::string>& lines) {
+  std::unique_ptr<cairo_surface_t, decltype(&cairo_surface_destroy)> surface(
+      cairo_image_surface_create(CAIRO_FORMAT_RGB24, 8, 8), &cairo_surface_destroy);
+  std::unique_ptr<cairo_t, decltype(&cairo_destroy)> context(cairo_create(surface.get()), &cairo_destroy);
+  SetAnnotationFont(context.get());
+  return WrapToWidth(context.get(), lines, kTextColumnPx - kTextMarginPx);
+}
+
+double AnnotationTextWidthPx(const std::string& line) {
+  std::unique_ptr<cairo_surface_t, decltype(&cairo_surface_destroy)> surface(
+      cairo_image_surface_create(CAIRO_FORMAT_RGB24, 8, 8), &cairo_surface_destroy);
+  std::unique_ptr<cairo_t, decltype(&cairo_destroy)> context(cairo_create(surface.get()), &cairo_destroy);
+  SetAnnotationFont(context.get());
+  cairo_text_extents_t e;
+  cairo_text_extents(context.get(), line.c_str(), &e);
+  return e.x_advance;
+}
+
+double AnnotationColumnWidthPx() { return kTextColumnPx - kTextMarginPx; }
 
 void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelength_nm, const StokesArray& stokes,
                         const StokesPlotOptions& o) {
@@ -103,7 +183,7 @@ void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelengt
   for (const PlotCurve& curve : o.overlays)
     if (curve.panel < 0 || curve.panel > 3 || curve.y.size() != wavelength_nm.size())
       throw PlotError("plot " + path + ": an overlay curve has a bad panel index or length");
-  const int text_column = o.annotation.empty() ? 0 : 400;
+  const int text_column = o.annotation.empty() ? 0 : kTextColumnPx;
   const int image_width = o.width_px + text_column;
   std::unique_ptr<cairo_surface_t, decltype(&cairo_surface_destroy)> surface(
       cairo_image_surface_create(CAIRO_FORMAT_RGB24, image_width, o.height_px), &cairo_surface_destroy);
@@ -122,16 +202,16 @@ void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelengt
   const double left = 100, right = 30, top = o.title.empty() ? 30 : 60, bottom = 70, gap = 18;
   const double ph = (o.height_px - top - bottom - 3 * gap) / 4.0;
   const double pw = o.width_px - left - right;
-  const char* labels_norm[4] = {"I", "Q / Ic", "U / Ic", "V / Ic"};
+  const char* labels_norm[4] = {"I / Ic", "Q / Ic", "U / Ic", "V / Ic"};
   const char* labels_raw[4] = {"I", "Q", "U", "V"};
   const double norm = o.divide_by_continuum ? o.continuum : 1.0;
   for (int c = 0; c < 4; ++c) {
     Eigen::ArrayXd y = stokes.col(c);
-    if (c > 0) y /= norm;
+    y /= norm;  // every panel, I too, in units of Ic when normalised (labels "X / Ic")
     double lo = y.minCoeff(), hi = y.maxCoeff();
     for (const PlotCurve& curve : o.overlays) {
       if (curve.panel != c) continue;
-      const Eigen::ArrayXd cy = c > 0 ? Eigen::ArrayXd(curve.y / norm) : curve.y;
+      const Eigen::ArrayXd cy = curve.y / norm;
       lo = std::min(lo, cy.minCoeff());
       hi = std::max(hi, cy.maxCoeff());
     }
@@ -154,7 +234,7 @@ void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelengt
       const double dash = 5.0;
       cairo_set_dash(cr, &dash, curve.dashed ? 1 : 0, 0.0);
       for (Eigen::Index i = 0; i < x.size(); ++i) {
-        const double v = c > 0 ? curve.y[i] / norm : curve.y[i];
+        const double v = curve.y[i] / norm;
         if (i == 0)
           cairo_move_to(cr, p.X(x[i]), p.Y(v));
         else
@@ -182,10 +262,9 @@ void WriteStokesPlotPng(const std::string& path, const Eigen::ArrayXd& wavelengt
   }
   if (!o.annotation.empty()) {
     cairo_set_source_rgb(cr, 0, 0, 0);
-    cairo_select_font_face(cr, "monospace", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, 12.0);
+    SetAnnotationFont(cr);
     double ty = top;
-    for (const std::string& line : o.annotation) {
+    for (const std::string& line : WrapToWidth(cr, o.annotation, kTextColumnPx - kTextMarginPx)) {
       cairo_move_to(cr, o.width_px + 5.0, ty);
       cairo_show_text(cr, line.c_str());
       ty += 17.0;

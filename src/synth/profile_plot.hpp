@@ -26,13 +26,21 @@ struct StokesPlotOptions {
   int width_px = 900;
   int height_px = 1100;
   std::string title;            ///< drawn above the top panel
-  double continuum = 1.0;       ///< Ic used to normalise Q, U, V (must be non-zero)
+  double continuum = 1.0;       ///< Ic used to normalise I, Q, U, V (must be non-zero)
   double centre_nm = 0.0;       ///< reference wavelength for the axis labels
-  bool divide_by_continuum = true;  ///< false: Q, U, V panels in data units (labels "Q", "U", "V")
+  bool divide_by_continuum = true;  ///< true: all panels / Ic (labels "I / Ic", ...); false: data units
   std::vector<PlotCurve> overlays;  ///< drawn over the data, clipped to the panels
   std::vector<double> markers_nm;   ///< short vertical ticks on the I panel (e.g. component positions)
   std::vector<std::string> annotation;  ///< text lines in a column right of the panels (widens the image)
 };
+
+/// The annotation lines as the picture draws them in its text column: wrapped at spaces to the column
+/// width (words are never split; only a token wider than the column by itself, e.g. a file path, is split,
+/// after a '/', '_' or ',' where it has one). Continuation lines are indented two more spaces.
+std::vector<std::string> WrapAnnotation(const std::vector<std::string>& lines);
+/// Width in pixels of `line` in the annotation font, and the width available in the column.
+double AnnotationTextWidthPx(const std::string& line);
+double AnnotationColumnWidthPx();
 
 /// Thrown when the PNG cannot be written; the message names the path.
 class PlotError : public std::runtime_error {

@@ -5,6 +5,7 @@
 #include <cairo.h>
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
 #include <limits>
@@ -125,6 +126,81 @@ TEST(Quicklook, OptionsValidateNamesTheField) {
   o.upper_percentile = 20;
   EXPECT_NE(o.Validate().find("lower_percentile"), std::string::npos);
   EXPECT_THROW(WriteMapPng("/tmp/never.png", QuicklookMap{}, o), OptionError);
+}
+
+// ---- quicklooks a scientist can put on a slide (docs/fits.md, "Quicklook colour maps")
+
+// After --disambiguate the azimuth is on [0, 360) (docs/conventions.md): the colour scale must cover it,
+// whether the map says so (AZRANGE = 360, written by `map`) or only its values show it.
+TEST(Quicklook, DisambiguatedAzimuthUsesTheFullCircle) {
+  ImageHdu az = MakeMap("B_AZIM", 3, 1, {10.0, 200.0, 350.0});
+  auto lim = ColourLimits(QuicklookFromHdu(az), {});
+  EXPECT_EQ(lim[0], 0.0);
+  EXPECT_EQ(lim[1], 360.0);
+  ImageHdu folded = MakeMap("B_AZIM", 3, 1, {10.0, 100.0, 170.0});
+  EXPECT_EQ(ColourLimits(QuicklookFromHdu(folded), {})[1], 180.0);
+  folded.keywords.push_back({"AZRANGE", 360.0, ""});  // a disambiguated map that happens to stay below 180
+  EXPECT_EQ(ColourLimits(QuicklookFromHdu(folded), {})[1], 360.0);
+  // The truth map of a simulated cube gets the same treatment (TRUE_B_AZIM is on [0, 360)).
+  EXPECT_EQ(ColourLimits(QuicklookFromHdu(MakeMap("TRUE_B_AZIM", 3, 1, {10.0, 200.0, 350.0})), {})[1], 360.0);
+  EXPECT_EQ(QuicklookFromHdu(MakeMap("TRUE_B_LOS", 1, 1, {1.0})).kind, ColourMapKind::kDiverging);
+}
+
+TEST(Quicklook, AzimuthIsFadedWhereTheTransverseFieldIsBelowDetection) {
+  QuicklookMap az = QuicklookFromHdu(MakeMap("B_AZIM", 4, 1, {10.0, 20.0, 30.0, 40.0}));
+  FadeWeakAzimuth(az, {100.0, 20.0, std::nan(""), 31.0}, {10.0, 10.0, 10.0, 10.0}, 3.0);
+  EXPECT_EQ(az.faded, (std::vector<unsigned char>{0, 1, 1, 0}));  // 10 sigma, 2 sigma, unknown, 3.1 sigma
+  EXPECT_NE(az.fade_note.find("3 sigma"), std::string::npos);
+  EXPECT_THROW(FadeWeakAzimuth(az, {1.0}, {1.0}, 3.0), OptionError);
+}
+
+TEST(Quicklook, TruthAndResultShareOneColourScale) {
+  QuicklookMap result = QuicklookFromHdu(MakeMap("B_LOS", 4, 1, {-100.0, 0.0, 50.0, 100.0}));
+  QuicklookMap truth = QuicklookFromHdu(MakeMap("TRUE_B_LOS", 4, 1, {-300.0, 0.0, 60.0, 120.0}));
+  QuicklookOptions o;
+  o.lower_percentile = 0.0;
+  o.upper_percentile = 100.0;
+  ShareColourLimits({&result, &truth}, o);
+  EXPECT_EQ(ColourLimits(result, o), ColourLimits(truth, o));
+  EXPECT_EQ(ColourLimits(truth, o)[0], -300.0);  // diverging, symmetric about 0, covering both maps
+  EXPECT_EQ(ColourLimits(truth, o)[1], 300.0);
+}
+
+TEST(Quicklook, MethodAndQualityAreCategoricalWithOneNamedColourPerCode) {
+  ImageHdu method = MakeMap("METHOD", 2, 1, {1.0, 4.0});
+  method.keywords = {{"METH1", std::string("wfa"), ""}, {"METH2", std::string("cog"), ""},
+                     {"METH3", std::string("split"), ""}, {"METH4", std::string("me"), ""}};
+  const QuicklookMap m = QuicklookFromHdu(method);
+  ASSERT_EQ(m.categories.size(), 5u);  // 0 none + four methods
+  EXPECT_EQ(m.categories[1].name, "1 wfa");
+  EXPECT_EQ(m.categories[4].name, "4 me");
+  const QuicklookMap q = QuicklookFromHdu(MakeMap("QUALITY", 1, 1, {6.0}));
+  EXPECT_TRUE(q.bit_flags);
+  std::vector<std::string> names;
+  for (const auto& c : q.categories) names.push_back(c.name);
+  // Every bit of the library's list has its own entry, named as QualityBitNames names it.
+  for (std::uint32_t b : {kQualityNonFiniteInput, kQualityLowSignal, kQualityNotConverged, kQualityBadFit}) {
+    const std::string want = std::to_string(b) + " " + QualityBitNames(b).front();
+    EXPECT_NE(std::find(names.begin(), names.end(), want), names.end()) << want;
+  }
+  for (std::size_t i = 0; i < q.categories.size(); ++i)
+    for (std::size_t j = i + 1; j < q.categories.size() && j < 11; ++j)
+      EXPECT_NE(q.categories[i].rgb, q.categories[j].rgb) << names[i] << " / " << names[j];
+}
+
+TEST(Quicklook, HelioprojectiveAxesAreInArcsecWithThePixelScale) {
+  ImageHdu h = MakeMap("B_LOS", 40, 20, std::vector<double>(800, 1.0));
+  h.wcs_header = MakeHelioprojectiveWcs(40, 20, 0.5, 100.0, -50.0);
+  const QuicklookMap m = QuicklookFromHdu(h);
+  ASSERT_TRUE(m.x_world && m.y_world);
+  EXPECT_NEAR(m.x_world->step, 0.5, 1e-6);  // arcsec per pixel (TAN, small field: linear to 1e-6)
+  EXPECT_NEAR(m.y_world->step, 0.5, 1e-6);
+  // The image centre (0-based pixel 19.5, 9.5) is at the pointing (100", -50").
+  EXPECT_NEAR(m.x_world->origin + 19.5 * m.x_world->step, 100.0, 1e-3);
+  EXPECT_NEAR(m.y_world->origin + 9.5 * m.y_world->step, -50.0, 1e-3);
+  EXPECT_NE(m.x_world->label.find("arcsec"), std::string::npos);
+  EXPECT_NE(m.x_world->label.find("0.5 arcsec/pixel"), std::string::npos);
+  EXPECT_FALSE(QuicklookFromHdu(MakeMap("B_LOS", 2, 2, {1, 2, 3, 4})).x_world);  // no WCS: pixel numbers
 }
 
 }  // namespace

@@ -137,6 +137,15 @@ with tempfile.TemporaryDirectory() as tmp:
     run(["map", iv, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "wfa", "-o",
          os.path.join(tmp, "iv_maps.fits"), "-q"])
     check(os.path.exists(os.path.join(tmp, "iv_maps.fits")), "I+V cube gives B_LOS maps with --method wfa")
+    # The I+V note names what is (not) written, and agrees with the file.
+    iv_auto = os.path.join(tmp, "iv_auto.fits")
+    p = run(["map", iv, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "auto", "-o", iv_auto])
+    with fits.open(iv_auto) as m:
+        names = [h.name for h in m]
+    check("B_AZIM" not in names, f"I+V maps hold no B_AZIM: {names}")
+    check("no B_AZIM" in p.stderr and "line-of-sight maps only" not in p.stderr, f"I+V note: {p.stderr.strip()!r}")
+    for name in ("B_TOTAL", "B_INCL", "B_TRANS"):
+        check((name in names) <= (name in p.stderr), f"the note mentions {name} when it is written")
     p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "magic", "-o",
              os.path.join(tmp, "x.fits")], expect_rc=2)
     check("magic" in p.stderr, f"bad method message: {p.stderr!r}")

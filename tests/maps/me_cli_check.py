@@ -44,8 +44,9 @@ def main():
         maps = os.path.join(tmp, "maps.fits")
         run([zeeline, "simulate", "--demo", "--nx", "16", "--ny", "16", "--line", "FeI_6302", "--catalog", catalog,
              "-o", cube, "--quiet"])
+        ql = os.path.join(tmp, "ql")
         out = run([zeeline, "map", cube, "--line", "FeI_6302", "--catalog", catalog, "--method", "me",
-                   "--disambiguate", "--threads", "2", "-o", maps])
+                   "--disambiguate", "--threads", "2", "-o", maps, "--png", ql])
         print(out.strip())
         with fits.open(cube) as c, fits.open(maps) as m:
             names = [h.name for h in m]
@@ -97,6 +98,15 @@ def main():
             check(dv < 0.05, f"median |d V_LOS| {dv:.4f} km/s < 0.05 km/s")
             check(np.all(np.isfinite(azi) & (azi >= 0) & (azi < 360)), "disambiguated B_AZIM in [0, 360)")
             check(np.all((t_azi >= 0) & (t_azi < 360)) and np.any(t_azi >= 180), "TRUE_B_AZIM unfolded on [0, 360)")
+            # The file says what its codes mean: AZRANGE on B_AZIM, QBITn naming each QUALITY bit as
+            # docs/fits.md lists them (bit 2 = NOT_CONVERGED, bit 5 = BAD_FIT, ...).
+            check(m["B_AZIM"].header.get("AZRANGE") == 360, f"B_AZIM AZRANGE = {m['B_AZIM'].header.get('AZRANGE')}")
+            qh = m["QUALITY"].header
+            for bit, name in ((0, "NONFINITE_INPUT"), (1, "LOW_SIGNAL"), (2, "NOT_CONVERGED"), (5, "BAD_FIT")):
+                check(qh.get("QBIT%d" % bit) == name, f"QUALITY QBIT{bit} = {qh.get('QBIT%d' % bit)!r} ({name})")
+            # Quicklooks: the truth maps of the cube are drawn next to the results.
+            pngs = sorted(os.listdir(ql))
+            check("maps_true_b_los.png" in pngs and "maps_b_los.png" in pngs, f"truth quicklooks written: {pngs}")
             # Disambiguation against the truth modulo 360 where the true B_TRANS > 200 G (there the potential
             # field of this bipole points the same way as the scene's field; 95 % is a judgement call).
             tt = c["TRUE_B_TRANS"].data.astype(float) > 200.0

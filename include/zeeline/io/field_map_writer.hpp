@@ -116,7 +116,8 @@ std::string MakeHelioprojectiveWcs(long nx, long ny, double arcsec_per_pixel, do
                                    double y0_arcsec = 0.0);
 
 /// Reads every 2-D image HDU of a file written by WriteFieldMaps (or any FITS file): EXTNAME, BUNIT,
-/// values as double, the HDU's WCS cards in wcs_header. HDUs without EXTNAME are named HDU<n>.
+/// values as double, the HDU's WCS cards in wcs_header, the quicklook keywords (METHn, QBITn, AZRANGE, DETSIG)
+/// in keywords. HDUs without EXTNAME are named HDU<n>, n as in file.fits[n].
 std::vector<ImageHdu> ReadImageHdus(const std::string& path);
 
 }  // namespace zeeline
