@@ -7,6 +7,7 @@
 #include <set>
 #include <sstream>
 
+#include "core/utf8_bom.hpp"
 #include "zeeline/core/errors.hpp"
 
 namespace zeeline::polarimetry {
@@ -53,7 +54,7 @@ int CalibrationSequence::FirstOpen() const {
 CalibrationSequence ParseCalibrationTable(const std::string& text, const std::string& origin) {
   CalibrationSequence seq;
   seq.source = origin;
-  std::istringstream in(text);
+  std::istringstream in(WithoutUtf8Bom(text));  // spreadsheet exports start with a byte-order mark
   std::string raw;
   int line_no = 0;
   bool have_header = false;

@@ -139,6 +139,10 @@ TEST(CalibrationTable, ParsesBlankAnglesAndNamesTheFirstOpenState) {
   EXPECT_FALSE(s.states[2].retarder_deg.has_value());
   EXPECT_DOUBLE_EQ(*s.states[3].retarder_deg, 30.0);
   EXPECT_EQ(s.states[3].line, 6);
+  // A UTF-8 byte-order mark before the header (spreadsheet export) is skipped (Unicode Standard, sect. 23.8).
+  const CalibrationSequence b =
+      ParseCalibrationTable("\xEF\xBB\xBFstate_name,polarizer_deg,retarder_deg,m1,m2,m3,m4\nopen,,,1,2,3,4\n", "b.csv");
+  EXPECT_EQ(b.states.size(), 1u);
 }
 
 TEST(CalibrationTable, MalformedTablesNameTheLineAndColumn) {
