@@ -431,13 +431,14 @@ void RunMeasure(const MeasureArgs& a) {
   const Measurement m = MeasureSpectrum(s, o);
   const bool lamp = m.sense == LineSense::kEmission;
 
-  if (!a.png.empty()) WritePng(a.png, s, line, m);
-  if (!a.json_file.empty()) {
-    std::ofstream f(a.json_file);
-    if (!f) throw OutputError(a.json_file + ": cannot open for writing");
-    WriteJson(f, s, line, o, m);
-    if (!f) throw OutputError(a.json_file + ": write failed");
-  }
+  if (!a.png.empty())
+    WriteOutputAtomically(a.png, a.overwrite, [&](const std::string& tmp) { WritePng(tmp, s, line, m); });
+  if (!a.json_file.empty())
+    WriteOutputAtomically(a.json_file, a.overwrite, [&](const std::string& tmp) {
+      std::ofstream f(tmp);
+      if (f) WriteJson(f, s, line, o, m);
+      if (!f) throw OutputError(a.json_file + ": cannot write");
+    });
   if (a.json) {
     WriteJson(std::cout, s, line, o, m);
     if (lamp) std::fprintf(stderr, "%s\n", kSafetyNote);

@@ -117,11 +117,7 @@ void RunProfile(const ProfileArgs& a) {
                   selected.lower_text.c_str(), selected.upper_text.c_str(), line.wavelength_nm, p.field_gauss, p.inclination_deg,
                   p.azimuth_deg, p.vlos_kms);
     plot.title = title;
-    try {
-      WriteStokesPlotPng(a.png, w, stokes, plot);
-    } catch (const PlotError& e) {
-      throw OutputError(e.what());
-    }
+    WriteOutputAtomically(a.png, a.overwrite, [&](const std::string& tmp) { WriteStokesPlotPng(tmp, w, stokes, plot); });
   }
 
   if (a.json) {

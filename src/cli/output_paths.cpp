@@ -6,6 +6,9 @@
 #include <system_error>
 
 #include "cli/commands.hpp"
+#include "io/atomic_file.hpp"
+#include "synth/profile_plot.hpp"
+#include "zeeline/core/errors.hpp"
 
 namespace zeeline::cli {
 namespace {
@@ -59,6 +62,18 @@ void CreateOutputDirectory(const std::string& dir, const std::string& what) {
   if (dir.empty() || fs::is_directory(dir, ec)) return;
   fs::create_directory(dir, ec);
   if (ec) throw OutputError(what + " " + dir + ": cannot create the directory: " + ec.message());
+}
+
+void WriteOutputAtomically(const std::string& path, bool overwrite, const std::function<void(const std::string&)>& write) {
+  try {
+    io_detail::TempOutputFile out(path, overwrite);
+    write(out.temp_path());
+    out.Commit();
+  } catch (const PlotError& e) {
+    throw OutputError(e.what());
+  } catch (const FitsError& e) {
+    throw OutputError(e.what());
+  }
 }
 
 }  // namespace zeeline::cli

@@ -5,6 +5,7 @@
 // parent exists.
 #pragma once
 
+#include <functional>
 #include <string>
 
 namespace zeeline::cli {
@@ -18,5 +19,9 @@ void CheckOutputDirectory(const std::string& dir, const std::string& what);
 
 /// Creates `dir` (one level; its parent must exist) unless it exists; throws OutputError on failure.
 void CreateOutputDirectory(const std::string& dir, const std::string& what);
+
+/// Calls write(temporary path) and renames the result onto `path` (nothing is left behind on failure);
+/// PlotError, FitsError and std::ios failures become OutputError (exit 3).
+void WriteOutputAtomically(const std::string& path, bool overwrite, const std::function<void(const std::string&)>& write);
 
 }  // namespace zeeline::cli
