@@ -403,22 +403,27 @@ std::string FieldText(double gauss) {
 
 }  // namespace
 
+std::optional<PaschenBackLine> TryMakePaschenBackLine(const Level& lower, const TermEnergies& lower_energies,
+                                                      const Level& upper, const TermEnergies& upper_energies,
+                                                      const LandeOptions& options, const std::string& lower_source,
+                                                      const std::string& upper_source, std::string* why_not) {
+  if (!lower_energies.empty() || !upper_energies.empty())
+    return MakePaschenBackLine(lower, lower_energies, upper, upper_energies, options, lower_source, upper_source);
+  try {
+    return MakePaschenBackLine(lower, {}, upper, {}, options, lower_source, upper_source);
+  } catch (const LevelParseError& e) {
+    if (why_not) *why_not = e.what();
+  }
+  return std::nullopt;
+}
+
 RegimePattern SelectPattern(const Level& lower, const Level& upper, const RegimeOptions& o) {
   const std::string bad = o.Validate();
   if (!bad.empty()) throw OptionError(bad);
   RegimePattern r;
-  const bool energies_given = !o.lower_energies.empty() || !o.upper_energies.empty();
   std::string why_not;
-  if (energies_given) {
-    r.line = MakePaschenBackLine(lower, o.lower_energies, upper, o.upper_energies, o.lande, o.lower_source,
-                                 o.upper_source);
-  } else {
-    try {
-      r.line = MakePaschenBackLine(lower, {}, upper, {}, o.lande, o.lower_source, o.upper_source);
-    } catch (const LevelParseError& e) {
-      why_not = e.what();
-    }
-  }
+  r.line = TryMakePaschenBackLine(lower, o.lower_energies, upper, o.upper_energies, o.lande, o.lower_source,
+                                  o.upper_source, &why_not);
   if (r.line) r.linear_breakdown_gauss = LinearBreakdownField_gauss(*r.line);
   const bool has_field = o.field_gauss.has_value();
   const double b = has_field ? *o.field_gauss : 0.0;

@@ -30,6 +30,7 @@ namespace {
 
 struct MeasureArgs {
   std::string spectrum, instrument_fwhm, window, png, json_file, pixel, world;
+  std::string regime = "auto", upper_energies, lower_energies;
   LineSelectionArgs line;
   std::optional<double> g_eff, damping;
   bool emission = false, absorption = false, json = false, overwrite = false;
@@ -98,6 +99,8 @@ void WriteJson(std::ostream& out, const Spectrum1D& s, const SelectedLine& line,
   j.Key("description").Value(line.description);
   j.Key("rest_wavelength_nm").Value(m.rest_wavelength_nm).Key("g_eff").Value(m.g_eff).Key("G").Value(m.G);
   j.Key("lorentz_shift_per_gauss_nm").Value(LorentzUnit_nm(m.rest_wavelength_nm, 1.0));
+  j.Key("regime").Value(m.regime).Key("linear_breakdown_gauss").Value(m.linear_breakdown_gauss);
+  j.Key("regime_note").Value(m.regime_note);
   j.EndObject();
   j.Key("sense").Value(ToString(m.sense)).Key("sense_detected").Value(m.sense_detected);
   j.Key("window_halfwidth_nm").Value(m.window_halfwidth_nm);
@@ -196,6 +199,7 @@ std::vector<std::string> Summary(const Spectrum1D& s, const SelectedLine& line, 
   add("spectrum: " + s.source + " (" + std::to_string(s.size()) + " samples, Stokes I" + (s.has_qu() ? "QU" : "") +
       (s.has_v() ? "V" : "") + ")");
   add("line: " + line.description);
+  add("regime: " + m.regime + " -- " + m.regime_note);
   add(ToString(m.sense) + " line" + (m.sense_detected ? " (detected)" : " (given)") + ", window +-" +
       Num(m.window_halfwidth_nm * 1e3, "%.4g") + " pm, peak " + Num(m.line_peak_sigma, "%.0f") + " sigma");
   const ComponentFitResult& c = m.components;
@@ -425,6 +429,28 @@ void RunMeasure(const MeasureArgs& a) {
   o.weak_ratio = a.weak_ratio;
   o.resolution_ratio = a.resolution_ratio;
   o.realisations = a.realisations;
+  o.regime = ZeemanRegimeFromString(a.regime);
+  {  // the mixed-regime model: energies from the options or the catalog's columns
+    TermEnergies el = line.lower_term_energies, eu = line.upper_term_energies;
+    const bool from_options = !a.lower_energies.empty() || !a.upper_energies.empty();
+    if (from_options && (!el.empty() || !eu.empty()))
+      throw OptionError("the line list already gives the term energies; drop --lower/--upper-term-energies");
+    if (!a.lower_energies.empty()) el = ParseTermEnergies(a.lower_energies, "--lower-term-energies");
+    if (!a.upper_energies.empty()) eu = ParseTermEnergies(a.upper_energies, "--upper-term-energies");
+    if (bare && (from_options || o.regime == ZeemanRegime::kPaschenBack))
+      throw OptionError("the mixed regime needs the line's levels (--lower/--upper), not --g-eff");
+    if (!bare) {
+      LandeOptions lande;
+      if (a.line.gs) lande.g_spin = *a.line.gs;
+      std::string why_not;
+      const std::string src_l = from_options ? "--lower-term-energies" : "column 'lower_term_energies'";
+      const std::string src_u = from_options ? "--upper-term-energies" : "column 'upper_term_energies'";
+      o.mixed_line = TryMakePaschenBackLine(ParseLevel(line.lower_text), el, ParseLevel(line.upper_text), eu, lande,
+                                            src_l, src_u, &why_not);
+      if (!o.mixed_line && o.regime == ZeemanRegime::kPaschenBack)
+        throw LevelParseError("--regime paschen-back: " + why_not);
+    }
+  }
   const std::string bad = o.Validate();
   if (!bad.empty()) throw OptionError(bad);
 
@@ -484,6 +510,12 @@ void AddMeasureCommand(CLI::App& app) {
   cmd->add_option("--resolution-ratio", a->resolution_ratio,
                   "sigma separation / component FWHM above which the components count as resolved")->capture_default_str();
   cmd->add_option("--realisations", a->realisations, "noise realisations for the characteristics' errors")->capture_default_str();
+  cmd->add_option("--regime", a->regime,
+                  "zeeman, paschen-back or auto (default): auto uses the mixed-regime pattern when the term energies "
+                  "are known and the field exceeds a tenth of the line's linear breakdown field");
+  cmd->add_option("--upper-term-energies", a->upper_energies,
+                  "energies of every J of the upper LS term in cm^-1, e.g. 1/2=14903.66,3/2=14904.00");
+  cmd->add_option("--lower-term-energies", a->lower_energies, "the same for the lower term");
   cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
   cmd->add_flag("--json", a->json, "print the results as one JSON object (keys in docs/measure.md)");
   cmd->add_option("--json-file", a->json_file, "also write the JSON object to this file");

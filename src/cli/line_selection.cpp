@@ -52,6 +52,8 @@ SelectedLine ResolveLine(const LineSelectionArgs& a) {
     s.frame = e.frame;
     s.mass_amu = e.mass_amu;
     RequireParityChange(e.lower, e.upper, a.catalog + ":" + std::to_string(e.source_line) + ": ");
+    s.lower_term_energies = e.lower_term_energies;
+    s.upper_term_energies = e.upper_term_energies;
     s.pattern = ComputeZeemanPattern(e.lower, e.upper, lande);
   } else {
     if (a.lower.empty() || a.upper.empty() || a.wavelength.empty())

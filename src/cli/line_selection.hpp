@@ -8,6 +8,7 @@
 #include <CLI/CLI.hpp>
 
 #include "zeeline/atomic/level.hpp"
+#include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/core/wavelength_frame.hpp"
 
@@ -25,6 +26,7 @@ struct SelectedLine {
   std::optional<WavelengthFrame> frame;    ///< unset = same frame as the data
   std::optional<double> mass_amu;
   ZeemanPattern pattern;
+  TermEnergies lower_term_energies, upper_term_energies;  ///< from the catalog's columns; empty = not given
 };
 
 /// Adds the options to `cmd`; `frame_help` explains what the frame defaults to for this command.

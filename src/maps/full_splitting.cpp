@@ -1,6 +1,7 @@
 #include "zeeline/maps/full_splitting.hpp"
 
 #include <cmath>
+#include <limits>
 #include <sstream>
 #include <vector>
 
@@ -171,6 +172,17 @@ SplittingResult FullSplittingEstimate(const PixelSpectrum& s, const ContinuumEst
   r.amplitude_red = p(kAr);
   r.field_gauss = p(kSplit) / (std::fabs(o.g_eff) * C);
   r.field_err_gauss = r.half_separation_err_nm / (std::fabs(o.g_eff) * C);
+  if (o.mixed_regime && std::fabs(r.field_gauss) > o.mixed_from_gauss) {
+    const double target = std::fabs(p(kSplit)) / C;  // half separation in Lorentz units x gauss
+    const auto sol = o.mixed_regime->FieldForHalfSeparation(target);
+    const auto sol_up = o.mixed_regime->FieldForHalfSeparation(target * (1.0 + 1e-4));
+    r.mixed_regime = true;
+    r.mixed_monotonic = sol.monotonic;
+    r.field_gauss = sol.ok ? sol.field_gauss : std::numeric_limits<double>::quiet_NaN();
+    r.field_err_gauss = sol.ok && sol_up.ok ? (sol_up.field_gauss - sol.field_gauss) / (1e-4 * target) *
+                                                  r.half_separation_err_nm / C
+                                            : std::numeric_limits<double>::quiet_NaN();
+  }
   const double c_kms = constants::kSpeedOfLight_m_s * 1e-3;
   r.vlos_kms = c_kms * (p(kCentre) - o.rest_wavelength_nm) / o.rest_wavelength_nm;
   r.vlos_err_kms = c_kms * std::sqrt(std::max(cov(kCentre, kCentre), 0.0)) / o.rest_wavelength_nm;

@@ -538,6 +538,14 @@ ComponentFitResult FitZeemanComponents(const PixelSpectrum& s, double noise_I, c
     const double half_sep = 0.5 * r.sigma_separation_nm;
     const double centres[2] = {r.pattern_mode ? r.components.front().position_nm : r.centre_nm - half_sep,
                                r.pattern_mode ? r.components.back().position_nm : r.centre_nm + half_sep};
+    // A widely spread group (mixed regime, wide anomalous patterns) peaks at its strongest line, not at its
+    // centroid: an extremum near either counts.
+    double strongest[2] = {centres[0], centres[1]}, best[2] = {-1.0, -1.0};
+    for (const PlacedLine& pl : r.lines)
+      if (pl.q != 0 && pl.strength > best[pl.q > 0 ? 1 : 0]) {
+        best[pl.q > 0 ? 1 : 0] = pl.strength;
+        strongest[pl.q > 0 ? 1 : 0] = pl.position_nm;
+      }
     const int fine_n = 2001;
     std::vector<double> fine(fine_n);
     for (int i = 0; i < fine_n; ++i) fine[static_cast<std::size_t>(i)] = x.front() + (x.back() - x.front()) * i / (fine_n - 1);
@@ -550,7 +558,9 @@ ComponentFitResult FitZeemanComponents(const PixelSpectrum& s, double noise_I, c
       const double v = sense * yf[i];
       if (!(v > sense * yf[i - 1] && v >= sense * yf[i + 1])) continue;
       for (int k = 0; k < 2; ++k)
-        if (std::fabs(fine[static_cast<std::size_t>(i)] - centres[k]) <= 0.5 * r.component_fwhm_nm) found[k] = true;
+        if (std::fabs(fine[static_cast<std::size_t>(i)] - centres[k]) <= 0.5 * r.component_fwhm_nm ||
+            std::fabs(fine[static_cast<std::size_t>(i)] - strongest[k]) <= 0.5 * r.component_fwhm_nm)
+          found[k] = true;
     }
     r.resolved = found[0] && found[1];
   }

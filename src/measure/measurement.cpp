@@ -3,6 +3,9 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <memory>
+#include <optional>
+#include <vector>
 
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
@@ -40,6 +43,10 @@ std::string MeasureOptions::Validate() const {
   if (!(resolution_ratio > 0.0)) return "resolution_ratio = " + num(resolution_ratio) + ": must be > 0";
   if (realisations < 0 || realisations > 100000)
     return "realisations = " + std::to_string(realisations) + ": expected 0 to 100000";
+  if (regime == ZeemanRegime::kPaschenBack && !mixed_line)
+    return "regime = paschen-back: needs the term energies of the line (mixed_line)";
+  if (regime == ZeemanRegime::kPaschenBack && free_components > 0)
+    return "regime = paschen-back: needs the Zeeman pattern, not free components";
   return {};
 }
 
@@ -92,6 +99,36 @@ double AutoWindow(const Spectrum1D& s, double l0) {
   const double step = (s.wavelength_nm.back() - s.wavelength_nm.front()) / static_cast<double>(n - 1);
   const double half_range = std::min(l0 - s.wavelength_nm.front(), s.wavelength_nm.back() - l0);
   return std::min(std::max(1.3 * extent, 3.0 * step), 0.9 * std::max(half_range, 3.0 * step));
+}
+
+}  // namespace
+
+namespace {
+
+struct MixedFit {
+  ComponentFitResult fit;
+  ZeemanPattern pattern;  ///< the mixed-regime pattern the fit used
+  int fits = 0;
+  bool converged = false;
+};
+
+// Fits with the mixed-regime pattern evaluated at the current field until |B| settles (1e-4 relative, <= 8 fits).
+MixedFit FitWithMixedPattern(const PixelSpectrum& view, double noise_I, ComponentFitOptions fo,
+                             const PaschenBackLine& line, double b) {
+  MixedFit out;
+  for (int it = 0; it < 8 && !out.converged; ++it) {
+    ZeemanPattern pat = ComputePaschenBackPattern(line, b).pattern;
+    pat.g_eff = SigmaHalfSeparation(pat);
+    fo.pattern = pat;
+    ComponentFitResult next = FitZeemanComponents(view, noise_I, fo);
+    ++out.fits;
+    if (!next.ok || !next.has_field || !(next.field_gauss > 0.0)) break;
+    out.converged = std::fabs(next.field_gauss - b) < 1e-4 * b;
+    b = next.field_gauss;
+    out.fit = std::move(next);
+    out.pattern = std::move(pat);
+  }
+  return out;
 }
 
 }  // namespace
@@ -177,15 +214,81 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
   so.g_eff = o.pattern.g_eff;
   so.window_halfwidth_nm = m.window_halfwidth_nm;
   so.resolution_ratio = o.resolution_ratio;
-  const SplittingResult sp = FullSplittingEstimate(view, m.continuum, so);
+  SplittingResult sp = FullSplittingEstimate(view, m.continuum, so);
   const ComponentFitResult& cf = m.components;
 
   // Field scale and splitting ratio.
-  double b_star = 0.0;
-  if (w.has_blos || w.has_btrans)
-    b_star = std::hypot(w.has_blos ? w.blos_gauss : 0.0, w.has_btrans ? w.btrans_gauss : 0.0);
-  if (g.ok && std::fabs(g.blos_gauss) > 3.0 * g.blos_err_gauss) b_star = std::max(b_star, std::fabs(g.blos_gauss));
-  if (cf.ok && cf.has_field && cf.resolved) b_star = std::max(b_star, cf.field_gauss);
+  auto field_scale = [&] {
+    double b = 0.0;
+    if (w.has_blos || w.has_btrans) b = std::hypot(w.has_blos ? w.blos_gauss : 0.0, w.has_btrans ? w.btrans_gauss : 0.0);
+    if (g.ok && std::fabs(g.blos_gauss) > 3.0 * g.blos_err_gauss) b = std::max(b, std::fabs(g.blos_gauss));
+    if (cf.ok && cf.has_field && cf.resolved) b = std::max(b, cf.field_gauss);
+    return b;
+  };
+  double b_star = field_scale();
+
+  // Beyond the linear regime: refit with the mixed-regime pattern at the fitted field (see the header).
+  ZeemanPattern me_pattern = o.pattern;
+  if (o.mixed_line && o.free_components == 0 && o.regime == ZeemanRegime::kZeeman) {
+    m.linear_breakdown_gauss = LinearBreakdownField_gauss(*o.mixed_line);
+    const double b_guess = std::max(b_star, cf.ok && cf.has_field ? cf.field_gauss : 0.0);
+    m.regime_note = "linear Zeeman pattern (requested)";
+    if (b_guess > 0.1 * m.linear_breakdown_gauss)
+      m.regime_note += "; warning: the field scale " + Fmt("%.4g", b_guess) +
+                       " G exceeds a tenth of the linear breakdown field " + Fmt("%.4g", m.linear_breakdown_gauss) +
+                       " G: the linear pattern biases |B| (use --regime auto)";
+  } else if (o.mixed_line && o.free_components == 0) {
+    m.linear_breakdown_gauss = LinearBreakdownField_gauss(*o.mixed_line);
+    const double bd = m.linear_breakdown_gauss;
+    const double b_fit = cf.ok && cf.has_field ? cf.field_gauss : 0.0;
+    const double b_guess = std::max(b_star, b_fit);
+    // Starts: the linear estimates, and fields around the breakdown field (a strongly mixed pattern can
+    // mislead the linear fit); the mixed fit with the lowest chi2 wins.
+    std::vector<double> starts = {b_fit, b_star, sp.ok ? sp.field_gauss : 0.0};
+    if (std::isfinite(bd))
+      for (double f : {0.3, 1.0, 3.0}) starts.push_back(f * bd);
+    std::optional<MixedFit> best;
+    std::vector<double> tried;  // starts and the fields they led to: a start within 5 % of one is skipped
+    for (double b0 : starts) {
+      if (!(b0 > 0.0) || !std::isfinite(b0)) continue;
+      if (std::any_of(tried.begin(), tried.end(), [&](double t) { return std::fabs(b0 - t) < 0.05 * t; })) continue;
+      tried.push_back(b0);
+      MixedFit f = FitWithMixedPattern(view, m.continuum.noise_I, fo, *o.mixed_line, b0);
+      m.mixed_fits += f.fits;
+      if (f.fit.ok && f.fit.has_field) tried.push_back(f.fit.field_gauss);
+      if (f.fit.ok && f.fit.has_field && (!best || f.fit.chi2_reduced < best->fit.chi2_reduced)) best = std::move(f);
+    }
+    const bool demanded =
+        best && (o.regime == ZeemanRegime::kPaschenBack || best->fit.field_gauss > 0.1 * bd);
+    if (demanded) {
+      const double b_found = best->fit.field_gauss;
+      me_pattern = best->pattern;
+      m.components = std::move(best->fit);
+      m.regime = "paschen-back";
+      char buf[360];
+      std::snprintf(buf, sizeof buf,
+                    "mixed-regime (Paschen-Back) pattern: fitted field %.5g G %s the linear breakdown field %.4g G "
+                    "(%d pattern fits, best reduced chi2 %.3g%s)",
+                    b_found, o.regime == ZeemanRegime::kPaschenBack ? "(requested); a tenth of" : "exceeds a tenth of",
+                    bd, m.mixed_fits, m.components.chi2_reduced,
+                    best->converged ? "" : "; NOT converged: treat |B| with care");
+      m.regime_note = buf;
+      so.mixed_regime = std::make_shared<const SigmaSplittingTable>(*o.mixed_line);
+      so.mixed_from_gauss = o.regime == ZeemanRegime::kPaschenBack ? 0.0 : 0.1 * bd;
+      sp = FullSplittingEstimate(view, m.continuum, so);
+      b_star = field_scale();
+    } else {
+      m.regime_note = std::isinf(m.linear_breakdown_gauss)
+                          ? "linear Zeeman pattern: it stays linear at every field for this line"
+                          : "linear Zeeman pattern: fitted field " +
+                                Fmt("%.4g", best ? best->fit.field_gauss : b_guess) +
+                                " G is below a tenth of the linear breakdown field " +
+                                Fmt("%.4g", m.linear_breakdown_gauss) + " G";
+    }
+  } else {
+    m.regime_note = o.regime == ZeemanRegime::kZeeman ? "linear Zeeman pattern (requested)"
+                                                      : "linear Zeeman pattern (no term energies for the mixed regime)";
+  }
   m.field_scale_gauss = b_star;
   if (cf.ok) {
     const double wi = o.instrument_fwhm_nm / (2.0 * std::sqrt(std::log(2.0)));
@@ -219,6 +322,10 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
                   m.wfa.valid ? "<" : ">=", o.weak_ratio);
     m.wfa.verdict = m.wfa.valid ? std::string("valid: ") + buf
                                 : std::string("outside validity: ") + buf + " (splitting not small against the line width)";
+    if (m.regime == "paschen-back") {
+      m.wfa.valid = false;
+      m.wfa.verdict += "; not valid beyond the linear regime (mixed-regime pattern: g_eff and G do not apply)";
+    }
     if (!w.has_btrans && s.has_qu() && o.pattern.G == 0.0) m.wfa.verdict += "; no B_TRANS: G = 0 for this line";
   }
 
@@ -238,6 +345,10 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
       if (c.q != 0 && std::fabs(std::fabs(c.shift_lorentz) - std::fabs(o.pattern.g_eff)) > 1e-9) triplet = false;
     m.cog.verdict = triplet ? "valid: B_LOS at any field strength for a (normal or anomalous) triplet"
                             : "valid: B_LOS at any field strength; approximate for this anomalous pattern";
+    if (m.regime == "paschen-back") {
+      m.cog.valid = false;
+      m.cog.verdict = "not valid: beyond the linear regime the sigma centroids are not at +-g_eff (mixed-regime pattern)";
+    }
   }
 
   // split (component fit)
@@ -259,6 +370,7 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
                   cf.component_fwhm_nm > 0.0 ? cf.sigma_separation_nm / cf.component_fwhm_nm : 0.0,
                   o.resolution_ratio);
     m.split.verdict = (cf.resolved ? std::string("valid: resolved, ") : std::string("not resolved: ")) + buf;
+    if (m.regime == "paschen-back") m.split.verdict += "; mixed-regime pattern at the fitted field";
   }
 
   // split_3gauss
@@ -273,7 +385,43 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
     m.split_3gauss.verdict =
         sp.resolved ? "valid: sigma groups resolved (half separation >= resolution ratio x Gaussian 1/e half-width)"
                     : "not resolved: half separation below resolution ratio x Gaussian 1/e half-width";
+    if (sp.mixed_regime)
+      m.split_3gauss.verdict += std::string("; |B| from the mixed-regime sigma separation") +
+                                (sp.mixed_monotonic ? "" : " (separation not monotonic in B: smallest field)");
+    if (m.regime == "paschen-back" && sp.ok) {
+      // One Gaussian per sigma group cannot describe a group spread wider than its lines.
+      const double b_pat = cf.ok && cf.has_field && cf.field_gauss > 0.0 ? cf.field_gauss : sp.field_gauss;
+      const ZeemanPattern pat = ComputePaschenBackPattern(*o.mixed_line, b_pat).pattern;
+      // ... nor a pi group off the middle of the sigma centroids (the model puts pi at the centre).
+      double spread = 0.0, centroid[3] = {0.0, 0.0, 0.0};
+      for (int q : {-1, 0, 1}) {
+        double s0 = 0.0, s1 = 0.0, s2 = 0.0;
+        for (const auto& c : pat.components)
+          if (c.q == q) {
+            s0 += c.strength;
+            s1 += c.strength * c.shift_lorentz;
+            s2 += c.strength * c.shift_lorentz * c.shift_lorentz;
+          }
+        if (s0 > 0.0) {
+          spread = std::max(spread, std::sqrt(std::max(0.0, s2 / s0 - (s1 / s0) * (s1 / s0))));
+          centroid[q + 1] = s1 / s0;
+        }
+      }
+      const double unit_nm = LorentzUnit_nm(l0, b_pat);
+      const double spread_nm = spread * unit_nm;
+      const double offset_nm = std::fabs(0.5 * (centroid[0] + centroid[2]) - centroid[1]) * unit_nm;
+      if (spread_nm > 0.5 * sp.width_nm || offset_nm > 0.5 * sp.width_nm) {
+        m.split_3gauss.valid = false;
+        m.split_3gauss.verdict = "not valid: at this field the mixed-regime groups spread over " +
+                                 Fmt("%.3g", spread_nm * 1e3) + " pm (rms) and the pi centroid lies " +
+                                 Fmt("%.3g", offset_nm * 1e3) + " pm off the sigma midpoint, against a Gaussian width " +
+                                 Fmt("%.3g", sp.width_nm * 1e3) +
+                                 " pm: three Gaussians do not describe the pattern (use split)";
+      }
+    }
   }
+  if (!sp.ok && sp.mixed_regime)
+    m.split_3gauss.verdict = "not available: the sigma separation lies beyond the mixed-regime table (1e7 G)";
   // me
   m.me.method = "me";
   if (m.sense != LineSense::kAbsorption) {
@@ -285,7 +433,7 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
   } else {
     MeLine me_line;
     me_line.wavelength_nm = l0;
-    me_line.pattern = o.pattern;
+    me_line.pattern = me_pattern;  // the mixed-regime pattern at the split field when that regime is used
     const MeInverter inverter({me_line}, MeInversionOptions{});
     MeStartHints hints;
     if (w.has_blos) hints.blos_gauss = w.blos_gauss;

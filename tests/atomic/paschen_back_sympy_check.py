@@ -265,6 +265,61 @@ with tempfile.TemporaryDirectory() as d:
                        "--upper-term-energies", "1/2=14903.66,3/2=14904.00", "--json").stdout)
     check(a["regime"] == "paschen-back" and a["components"] == b["components"], "catalog energies = option energies")
 
+# `measure` beyond the linear regime: emission spectra synthesised here from the pattern above (Gaussian
+# components, transverse view: pi weight 1/2, each sigma 1/4; LL04 sect. 9.8), Gaussian noise, then
+# `zeeline measure`: the injected field must come back within its error (pull), the regime must be reported,
+# the three-Gaussian estimate must be flagged (its model cannot hold these patterns) and the linear pattern,
+# when forced, must be visibly biased and warned about. Invented lines at 500 nm (2P interval 2 cm^-1; a 3P
+# term on the interval rule with A = 1 cm^-1) so that no fine-structure partner line falls in the window.
+LORENTZ_NM_PER_G = sc.e / (4 * np.pi * sc.m_e * sc.c) * (500e-9) ** 2 * 1e-4 * 1e9
+
+
+def measure_synthetic(lower, upper, B, seed, levels, energies, extra=()):
+    comps = pattern(lower, upper, B, GS_CODATA)
+    lam = np.linspace(499.85, 500.15, 601)
+    I = np.ones_like(lam)
+    for (q, shift, st) in comps.values():
+        I += 5 * (0.5 if q == 0 else 0.25) * st * np.exp(-((lam - 500 - shift * LORENTZ_NM_PER_G * B) / 0.002) ** 2)
+    I += np.random.default_rng(seed).normal(0, 0.01, lam.size)
+    with tempfile.TemporaryDirectory() as d:
+        path = os.path.join(d, "lamp.txt")
+        np.savetxt(path, np.c_[lam, I], header="wavelength_nm I", comments="")
+        p = run("measure", path, "--lower", levels[0], "--upper", levels[1], "--wavelength", "500nm",
+                "--upper-term-energies", energies, "--emission", "--realisations", "0", "--json", *extra)
+    return json.loads(p.stdout) if p.returncode == 0 else None
+
+
+D1 = (S_HALF, (1, F(1, 2), F(1, 2), {F(1, 2): 0.0, F(3, 2): 2.0}))
+pulls = []
+for seed in range(4):
+    o = measure_synthetic(*D1, 2e4, seed, ("2S1/2", "2P1/2"), "1/2=0,3/2=2")
+    if not o:
+        continue
+    e = o["estimates"]["split"]
+    pulls.append((e["field_gauss"] - 2e4) / e["field_err_gauss"])
+    check(o["line"]["regime"] == "paschen-back", "measure D1 2 T: regime " + o["line"]["regime"])
+    check(e["valid"], "measure D1 2 T: split valid: " + e["verdict"])
+    check(not o["estimates"]["split_3gauss"]["valid"], "measure D1 2 T: split_3gauss flagged")
+print("measure D1 at 2 T (breakdown %.4g G): split pulls %s" % (o["line"]["linear_breakdown_gauss"],
+                                                              ", ".join(f"{x:+.2f}" for x in pulls)))
+check(len(pulls) == 4 and max(abs(x) for x in pulls) < 4 and abs(np.mean(pulls)) < 2.5, f"D1 pulls {pulls}")
+T3 = ((0, 1, F(1), {1: 0.0}), (1, 1, F(2), {0: -2.0, 1: -1.0, 2: 1.0}))
+o = measure_synthetic(*T3, 3e4, 7, ("3S1", "3P2"), "0=-2,1=-1,2=1", ("--regime", "zeeman"))
+if o:
+    e = o["estimates"]["split"]
+    check("warning" in o["line"]["regime_note"], "forced zeeman warns: " + o["line"]["regime_note"])
+    bias = (e["field_gauss"] - 3e4) / e["field_err_gauss"]
+    check(abs(bias) > 10, f"forced linear pattern at 3 T is biased: {bias:.1f} sigma")
+    print(f"measure 3S1-3P2 at 3 T forced linear: split {e['field_gauss']:.1f} +- {e['field_err_gauss']:.2g} G "
+          f"({bias:+.1f} sigma)")
+o = measure_synthetic(*T3, 3e4, 7, ("3S1", "3P2"), "0=-2,1=-1,2=1")
+if o:
+    e = o["estimates"]["split"]
+    pull = (e["field_gauss"] - 3e4) / e["field_err_gauss"]
+    print(f"measure 3S1-3P2 at 3 T: split {e['field_gauss']:.1f} +- {e['field_err_gauss']:.2g} G (pull {pull:+.2f}), "
+          f"breakdown {o['line']['linear_breakdown_gauss']:.5g} G")
+    check(o["line"]["regime"] == "paschen-back" and abs(pull) < 4 and e["valid"], f"3S1-3P2: pull {pull}")
+
 if failures:
     print(f"{len(failures)} failure(s)")
     sys.exit(1)

@@ -103,6 +103,13 @@ PaschenBackLine MakePaschenBackLine(const Level& lower, const TermEnergies& lowe
                                     const std::string& lower_source = "lower term energies",
                                     const std::string& upper_source = "upper term energies");
 
+/// The line when the model can be built: energies given -> it must build (throws, naming the problem); none
+/// given -> built only when both terms are single levels, otherwise nullopt with the reason in `why_not`.
+std::optional<PaschenBackLine> TryMakePaschenBackLine(const Level& lower, const TermEnergies& lower_energies,
+                                                      const Level& upper, const TermEnergies& upper_energies,
+                                                      const LandeOptions& options, const std::string& lower_source,
+                                                      const std::string& upper_source, std::string* why_not);
+
 /// An eigenstate of a term in the field: its adiabatic label, energy and uncoupled amplitudes.
 struct TermSublevel {
   int two_J = 0, two_M = 0;    ///< adiabatic label |J M>

@@ -13,10 +13,16 @@
 // Peak positions therefore come from a profile fit, not from the brightest sample.
 // Validity: the components are called resolved when s >= resolution_ratio * w (default 1: the splitting
 // exceeds the component's Doppler half-width); otherwise the estimate is reported with resolved = false.
+// Beyond the linear regime (incomplete Paschen–Back, atomic/paschen_back.hpp): with `mixed_regime` set and the
+// linear estimate above `mixed_from_gauss` (a tenth of the line's breakdown field, or 0 to force it), |B| solves
+//   s = g_split(B) C B,   g_split(B) = half the sigma-centroid separation of the mixed pattern in Lorentz units
+// on the table of the line (SigmaSplittingTable), and its sigma follows from the local slope dB/ds.
 #pragma once
 
+#include <memory>
 #include <string>
 
+#include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/maps/pixel_spectrum.hpp"
 
 namespace zeeline {
@@ -27,6 +33,8 @@ struct SplittingOptions {
   double window_halfwidth_nm = 0.0;  ///< fit window around the rest wavelength; 0 = whole spectrum
   double resolution_ratio = 1.0;     ///< s / w above which the sigma groups count as resolved
   int max_iterations = 60;           ///< Levenberg–Marquardt iterations
+  std::shared_ptr<const SigmaSplittingTable> mixed_regime;  ///< unset: linear pattern (|B| = s / (g_eff C))
+  double mixed_from_gauss = 0.0;     ///< use the table when the linear |B| exceeds this
 
   std::string Validate() const;
 };
@@ -41,6 +49,8 @@ struct SplittingResult {
   double chi2_reduced = 0.0;
   int iterations = 0;
   bool resolved = false;
+  bool mixed_regime = false;          ///< |B| from the mixed-regime (Paschen–Back) table
+  bool mixed_monotonic = true;        ///< false: s(B) not monotonic below the solution (smallest B reported)
   bool ok = false;
 };
 

@@ -25,11 +25,20 @@
 //          from the cheaper estimates: B, inclination, azimuth, B_LOS, B_TRANS, V_LOS; absorption lines with
 //          a known pattern only; valid when it converged with reduced chi2 below the inverter's bad-fit
 //          level. The ME model has no instrument profile: with --instrument-fwhm the verdict says so.
+//
+// Beyond the linear regime (atomic/paschen_back.hpp): when the line's term energies are known (mixed_line)
+// and the regime is paschen-back, or auto with the field scale B* (or the pattern fit's |B|) above a tenth of
+// the line's linear breakdown field, the pattern fit is repeated with the mixed-regime pattern evaluated at the
+// fitted field until |B| changes by less than 1e-4 relative (at most 8 fits), split_3gauss solves its sigma
+// separation on the mixed-regime table, ME inverts with the pattern at the split field, and the wfa and cog
+// verdicts say that their g_eff-based answers are biased there. `regime` and `regime_note` say what was used.
 #pragma once
 
+#include <limits>
 #include <optional>
 #include <string>
 
+#include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/maps/map_method.hpp"
 #include "zeeline/measure/component_fit.hpp"
@@ -55,6 +64,8 @@ struct MeasureOptions {
   double resolution_ratio = 1.0;        ///< sigma separation / component FWHM for "resolved"
   int realisations = 200;               ///< noise realisations for the characteristics' errors
   std::uint32_t seed = 20240611;
+  std::optional<PaschenBackLine> mixed_line;  ///< the line's LS terms with level energies (mixed regime possible)
+  ZeemanRegime regime = ZeemanRegime::kAuto;  ///< zeeman: linear only; paschen-back: mixed (needs mixed_line)
 
   std::string Validate() const;
 };
@@ -82,6 +93,10 @@ struct Measurement {
   ComponentFitResult components;
   StokesCharacteristics characteristics;
   MethodEstimate wfa, cog, split, split_3gauss, me;
+  std::string regime = "zeeman";  ///< pattern behind split / split_3gauss / me: "zeeman" or "paschen-back"
+  double linear_breakdown_gauss = std::numeric_limits<double>::quiet_NaN();  ///< NaN unknown, inf never
+  std::string regime_note;        ///< why that regime
+  int mixed_fits = 0;             ///< pattern fits done with the mixed-regime pattern
 };
 
 /// Runs everything on one spectrum. Throws OptionError for invalid options and SpectrumError when the
