@@ -21,6 +21,7 @@
 #include "zeeline/io/air_vacuum.hpp"
 #include "zeeline/io/stokes_transform_writer.hpp"
 #include "zeeline/polarimetry/crosstalk.hpp"
+#include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/polarimetry/magnet_fit.hpp"
 #include "zeeline/polarimetry/modulation_fit.hpp"
 
@@ -355,6 +356,7 @@ const char* kMagnetSafety =
 struct MagnetArgs {
   std::vector<std::string> spectra;
   LineSelectionArgs line;
+  RegimeArgs regime;
   std::string field, instrument_fwhm, png;
   double damping = 0.0;
   int v_sign = 1;
@@ -410,7 +412,37 @@ void RunMagnet(const MagnetArgs& a) {
   if (line.frame && frame && *line.frame != *frame)
     o.rest_wavelength_nm = ConvertWavelength_nm(line.rest_wavelength_nm, *line.frame, *frame);
   if (const std::string bad = o.Validate(); !bad.empty()) throw OptionError(bad);
-  const pol::MagnetFitResult r = pol::FitMagnet(spectra, o);
+  // Beyond the linear regime (docs/atomic.md): the mixed-regime pattern at the fitted field, refitted until the
+  // field settles (1e-5 relative, at most 6 fits); `auto` when the nominal field exceeds a tenth of the
+  // line's linear breakdown field.
+  const ZeemanRegime regime = ZeemanRegimeFromString(a.regime.regime);
+  const auto mixed = ResolveMixedLine(line, a.line, a.regime);
+  const double breakdown = mixed ? LinearBreakdownField_gauss(*mixed) : std::nan("");
+  const bool use_mixed = mixed && regime != ZeemanRegime::kZeeman &&
+                         (regime == ZeemanRegime::kPaschenBack || o.nominal_field_gauss > 0.1 * breakdown);
+  std::string regime_note = use_mixed ? "mixed-regime (Paschen-Back) pattern at the fitted field"
+                                      : (mixed ? "linear Zeeman pattern" : "linear Zeeman pattern (no term energies)");
+  pol::MagnetFitResult r;
+  if (use_mixed) {
+    double b = o.nominal_field_gauss;
+    bool settled = false;
+    int fits = 0;
+    while (!settled && fits < 6) {
+      o.pattern = ComputePaschenBackPattern(*mixed, b).pattern;
+      o.pattern.g_eff = SigmaHalfSeparation(o.pattern);
+      r = pol::FitMagnet(spectra, o);
+      ++fits;
+      const double b_new = r.field_scale * o.nominal_field_gauss;
+      settled = std::fabs(b_new - b) < 1e-5 * b;
+      if (!(b_new > 0.0)) break;
+      b = b_new;
+    }
+    regime_note += " (" + std::to_string(fits) + " fits" + (settled ? ")" : ", NOT settled: treat f with care)");
+  } else {
+    r = pol::FitMagnet(spectra, o);
+    if (mixed && o.nominal_field_gauss > 0.1 * breakdown)
+      regime_note += "; warning: the field exceeds a tenth of the linear breakdown field (use --regime auto)";
+  }
 
   if (!a.png.empty()) {
     for (std::size_t k = 0; k < spectra.size(); ++k) {
@@ -468,6 +500,8 @@ void RunMagnet(const MagnetArgs& a) {
     j.BeginObject();
     j.Key("line").Value(line.description);
     j.Key("nominal_field_gauss").Value(o.nominal_field_gauss);
+    j.Key("regime").Value(use_mixed ? "paschen-back" : "zeeman").Key("linear_breakdown_gauss").Value(breakdown);
+    j.Key("regime_note").Value(regime_note);
     j.Key("lorentz_shift_nm").Value(LorentzUnit_nm(o.rest_wavelength_nm, o.nominal_field_gauss));
     j.Key("field_scale").Value(r.field_scale).Key("field_scale_err").Value(r.field_scale_err);
     j.Key("field_gauss").Value(r.field_scale * o.nominal_field_gauss);
@@ -508,6 +542,8 @@ void RunMagnet(const MagnetArgs& a) {
   }
   std::printf("%s\n\n", kMagnetSafety);
   std::printf("line: %s\n", line.description.c_str());
+  std::printf("regime: %s -- %s; linear breakdown field %s\n", use_mixed ? "paschen-back" : "zeeman",
+              regime_note.c_str(), std::isnan(breakdown) ? "unknown" : Num(breakdown, "%.5g G").c_str());
   std::printf("field scale f = B_true / B_nominal = %.5f +- %.2g  (B = %.1f +- %.1f G, nominal %.1f G)\n", r.field_scale,
               r.field_scale_err, r.field_scale * o.nominal_field_gauss, r.field_scale_err * o.nominal_field_gauss,
               o.nominal_field_gauss);
@@ -558,6 +594,7 @@ void AddMagnet(CLI::App* parent) {
   cmd->add_option("--spectrum", a->spectra, "FILE:INCLINATION,AZIMUTH (repeatable)")->required();
   AddLineSelectionOptions(cmd, a->line, "default: the frame of the spectra (FITS CTYPE1), tables have none");
   cmd->add_option("--field", a->field, "nominal field of the magnet, e.g. 10kG, 1T")->required();
+  AddRegimeOptions(cmd, a->regime);
   cmd->add_option("--instrument-fwhm", a->instrument_fwhm, "Gaussian instrument profile FWHM, e.g. 2pm (default 0)");
   cmd->add_option("--damping", a->damping, "Voigt damping of the components (Doppler units), kept fixed")
       ->capture_default_str();

@@ -30,7 +30,7 @@ namespace {
 
 struct MeasureArgs {
   std::string spectrum, instrument_fwhm, window, png, json_file, pixel, world;
-  std::string regime = "auto", upper_energies, lower_energies;
+  RegimeArgs regime;
   LineSelectionArgs line;
   std::optional<double> g_eff, damping;
   bool emission = false, absorption = false, json = false, overwrite = false;
@@ -429,28 +429,11 @@ void RunMeasure(const MeasureArgs& a) {
   o.weak_ratio = a.weak_ratio;
   o.resolution_ratio = a.resolution_ratio;
   o.realisations = a.realisations;
-  o.regime = ZeemanRegimeFromString(a.regime);
-  {  // the mixed-regime model: energies from the options or the catalog's columns
-    TermEnergies el = line.lower_term_energies, eu = line.upper_term_energies;
-    const bool from_options = !a.lower_energies.empty() || !a.upper_energies.empty();
-    if (from_options && (!el.empty() || !eu.empty()))
-      throw OptionError("the line list already gives the term energies; drop --lower/--upper-term-energies");
-    if (!a.lower_energies.empty()) el = ParseTermEnergies(a.lower_energies, "--lower-term-energies");
-    if (!a.upper_energies.empty()) eu = ParseTermEnergies(a.upper_energies, "--upper-term-energies");
-    if (bare && (from_options || o.regime == ZeemanRegime::kPaschenBack))
-      throw OptionError("the mixed regime needs the line's levels (--lower/--upper), not --g-eff");
-    if (!bare) {
-      LandeOptions lande;
-      if (a.line.gs) lande.g_spin = *a.line.gs;
-      std::string why_not;
-      const std::string src_l = from_options ? "--lower-term-energies" : "column 'lower_term_energies'";
-      const std::string src_u = from_options ? "--upper-term-energies" : "column 'upper_term_energies'";
-      o.mixed_line = TryMakePaschenBackLine(ParseLevel(line.lower_text), el, ParseLevel(line.upper_text), eu, lande,
-                                            src_l, src_u, &why_not);
-      if (!o.mixed_line && o.regime == ZeemanRegime::kPaschenBack)
-        throw LevelParseError("--regime paschen-back: " + why_not);
-    }
-  }
+  o.regime = ZeemanRegimeFromString(a.regime.regime);
+  if (bare && (!a.regime.lower_energies.empty() || !a.regime.upper_energies.empty() ||
+               o.regime == ZeemanRegime::kPaschenBack))
+    throw OptionError("the mixed regime needs the line's levels (--lower/--upper), not --g-eff");
+  if (!bare) o.mixed_line = ResolveMixedLine(line, a.line, a.regime);
   const std::string bad = o.Validate();
   if (!bad.empty()) throw OptionError(bad);
 
@@ -510,12 +493,7 @@ void AddMeasureCommand(CLI::App& app) {
   cmd->add_option("--resolution-ratio", a->resolution_ratio,
                   "sigma separation / component FWHM above which the components count as resolved")->capture_default_str();
   cmd->add_option("--realisations", a->realisations, "noise realisations for the characteristics' errors")->capture_default_str();
-  cmd->add_option("--regime", a->regime,
-                  "zeeman, paschen-back or auto (default): auto uses the mixed-regime pattern when the term energies "
-                  "are known and the field exceeds a tenth of the line's linear breakdown field");
-  cmd->add_option("--upper-term-energies", a->upper_energies,
-                  "energies of every J of the upper LS term in cm^-1, e.g. 1/2=14903.66,3/2=14904.00");
-  cmd->add_option("--lower-term-energies", a->lower_energies, "the same for the lower term");
+  AddRegimeOptions(cmd, a->regime);
   cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
   cmd->add_flag("--json", a->json, "print the results as one JSON object (keys in docs/measure.md)");
   cmd->add_option("--json-file", a->json_file, "also write the JSON object to this file");

@@ -32,6 +32,35 @@ double ParseFieldStrength_gauss(const std::string& text, const std::string& opti
   return b;
 }
 
+void AddRegimeOptions(CLI::App* cmd, RegimeArgs& a) {
+  cmd->add_option("--regime", a.regime,
+                  "zeeman, paschen-back or auto (default): auto uses the mixed-regime pattern when the term energies "
+                  "are known and the field exceeds a tenth of the line's linear breakdown field (docs/atomic.md)");
+  cmd->add_option("--upper-term-energies", a.upper_energies,
+                  "energies of every J of the upper LS term in cm^-1, e.g. 1/2=14903.66,3/2=14904.00");
+  cmd->add_option("--lower-term-energies", a.lower_energies, "the same for the lower term");
+}
+
+std::optional<PaschenBackLine> ResolveMixedLine(const SelectedLine& line, const LineSelectionArgs& line_args,
+                                                const RegimeArgs& a) {
+  const ZeemanRegime regime = ZeemanRegimeFromString(a.regime);
+  TermEnergies el = line.lower_term_energies, eu = line.upper_term_energies;
+  const bool from_options = !a.lower_energies.empty() || !a.upper_energies.empty();
+  if (from_options && (!el.empty() || !eu.empty()))
+    throw OptionError("the line list already gives the term energies; drop --lower/--upper-term-energies");
+  if (!a.lower_energies.empty()) el = ParseTermEnergies(a.lower_energies, "--lower-term-energies");
+  if (!a.upper_energies.empty()) eu = ParseTermEnergies(a.upper_energies, "--upper-term-energies");
+  LandeOptions lande;
+  if (line_args.gs) lande.g_spin = *line_args.gs;
+  std::string why_not;
+  const std::string src_l = from_options ? "--lower-term-energies" : "column 'lower_term_energies'";
+  const std::string src_u = from_options ? "--upper-term-energies" : "column 'upper_term_energies'";
+  auto mixed = TryMakePaschenBackLine(ParseLevel(line.lower_text), el, ParseLevel(line.upper_text), eu, lande, src_l,
+                                      src_u, &why_not);
+  if (!mixed && regime == ZeemanRegime::kPaschenBack) throw LevelParseError("--regime paschen-back: " + why_not);
+  return mixed;
+}
+
 SelectedLine ResolveLine(const LineSelectionArgs& a) {
   LandeOptions lande;
   if (a.gs) lande.g_spin = *a.gs;

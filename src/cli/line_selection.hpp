@@ -41,6 +41,16 @@ void RequireParityChange(const Level& lower, const Level& upper, const std::stri
 /// strength is >= 0, its direction is the inclination, docs/conventions.md).
 double ParseFieldStrength_gauss(const std::string& text, const std::string& option);
 
+/// The mixed-regime (Paschen–Back) options shared by `measure` and `calibrate magnet`.
+struct RegimeArgs {
+  std::string regime = "auto", upper_energies, lower_energies;
+};
+void AddRegimeOptions(CLI::App* cmd, RegimeArgs& args);
+/// The line's mixed-regime model from the options or the catalog's energy columns (nullopt when neither
+/// gives what the terms need; an error when `paschen-back` is asked for then, or energies are given twice).
+std::optional<PaschenBackLine> ResolveMixedLine(const SelectedLine& line, const LineSelectionArgs& line_args,
+                                                const RegimeArgs& args);
+
 /// Resolves the options (reads the catalog when given). Throws OptionError / LineListError /
 /// LevelParseError / UnitError with the offending value.
 SelectedLine ResolveLine(const LineSelectionArgs& args);

@@ -320,6 +320,50 @@ if o:
           f"breakdown {o['line']['linear_breakdown_gauss']:.5g} G")
     check(o["line"]["regime"] == "paschen-back" and abs(pull) < 4 and e["valid"], f"3S1-3P2: pull {pull}")
 
+# `calibrate magnet` beyond the linear regime: a longitudinal and a transverse lamp spectrum of the D1-like
+# line at 2 T synthesised from the pattern above with the optically thin emission vector (LL04 sect. 6.6:
+# e_I = A/2 [phi_0 sin^2 g + (phi_-1 + phi_+1)(1 + cos^2 g)/2], e_Q = A/2 [phi_0 - (phi_-1 + phi_+1)/2] sin^2 g,
+# e_V = A/2 (phi_+1 - phi_-1) cos g, unit-area Gaussians), nominal field 2 T / 1.02: the field scale must
+# come back as 1.02 within its error, and the forced linear pattern must be biased.
+def magnet_spectrum(path, comps, B, gamma_deg, seed):
+    lam = np.linspace(499.85, 500.15, 601)
+    w = 0.002
+    phi = {q: np.zeros_like(lam) for q in (-1, 0, 1)}
+    for (q, shift, st) in comps.values():
+        phi[q] += st * np.exp(-((lam - 500 - shift * LORENTZ_NM_PER_G * B) / w) ** 2) / (np.sqrt(np.pi) * w)
+    g = np.radians(gamma_deg)
+    A = 0.02
+    I = 1.0 + A / 2 * (phi[0] * np.sin(g) ** 2 + (phi[-1] + phi[1]) * (1 + np.cos(g) ** 2) / 2)
+    Q = A / 2 * (phi[0] - (phi[-1] + phi[1]) / 2) * np.sin(g) ** 2
+    V = A / 2 * (phi[1] - phi[-1]) * np.cos(g)
+    rng = np.random.default_rng(seed)
+    noisy = [x + rng.normal(0, 0.01, lam.size) for x in (I, Q, np.zeros_like(lam), V)]
+    np.savetxt(path, np.c_[lam, *noisy], header="wavelength_nm I Q U V", comments="")
+
+
+comps = pattern(*D1, 2e4, GS_CODATA)
+with tempfile.TemporaryDirectory() as d:
+    longi, trans = os.path.join(d, "long.txt"), os.path.join(d, "trans.txt")
+    magnet_spectrum(longi, comps, 2e4, 0.0, 21)
+    magnet_spectrum(trans, comps, 2e4, 90.0, 22)
+    cal = ["calibrate", "magnet", "--spectrum", longi + ":0,0", "--spectrum", trans + ":90,0", "--lower", "2S1/2",
+           "--upper", "2Po1/2", "--wavelength", "500nm", "--field", f"{2e4 / 1.02}G",
+           "--upper-term-energies", "1/2=0,3/2=2", "--json"]
+    results = {}
+    for regime in ("auto", "zeeman"):
+        p = run(*cal, "--regime", regime)
+        if p.returncode == 0:
+            results[regime] = json.loads(p.stdout)
+    if len(results) == 2:
+        mixed, linear = results["auto"], results["zeeman"]
+        pull = (mixed["field_scale"] - 1.02) / mixed["field_scale_err"]
+        bias = (linear["field_scale"] - 1.02) / linear["field_scale_err"]
+        print(f"calibrate magnet D1 at 2 T: f = {mixed['field_scale']:.5f} +- {mixed['field_scale_err']:.2g} "
+              f"(pull {pull:+.2f}, {mixed['regime']}); linear pattern f = {linear['field_scale']:.5f} ({bias:+.1f} sigma)")
+        check(mixed["regime"] == "paschen-back" and abs(pull) < 4, f"magnet mixed: pull {pull}")
+        check(linear["regime"] == "zeeman" and "warning" in linear["regime_note"] and abs(bias) > 10,
+              f"magnet linear: bias {bias} sigma, note {linear['regime_note']}")
+
 if failures:
     print(f"{len(failures)} failure(s)")
     sys.exit(1)
