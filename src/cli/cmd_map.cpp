@@ -1,6 +1,7 @@
 // `zeeline map`: field maps from a Stokes cube (a thin layer over maps/field_maps.hpp and io/).
 #include <unistd.h>
 
+#include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <iostream>
@@ -12,6 +13,7 @@
 #include "cli/commands.hpp"
 #include "cli/interrupt.hpp"
 #include "cli/line_selection.hpp"
+#include "zeeline/atomic/paschen_back.hpp"
 #include "cli/output_paths.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
@@ -175,6 +177,18 @@ void RunMap(const MapArgs& a) {
   FieldMapOptions o;
   o.method = MapMethodFromString(a.method);
   o.pattern = line.pattern;
+  std::string split_regime;  // beyond the linear regime: from the line list's term energies (docs/methods.md)
+  if (const auto mixed = ResolveMixedLine(line, a.line, RegimeArgs{})) {
+    const double bd = LinearBreakdownField_gauss(*mixed);
+    if (std::isfinite(bd)) {
+      o.mixed_splitting = std::make_shared<const SigmaSplittingTable>(*mixed);
+      o.mixed_from_gauss = 0.1 * bd;
+      char buf[200];
+      std::snprintf(buf, sizeof buf, "mixed-regime (Paschen-Back) sigma separation above %.4g G (a tenth of the "
+                    "linear breakdown field %.4g G)", o.mixed_from_gauss, bd);
+      split_regime = buf;
+    }
+  }
   o.rest_wavelength_nm = line.rest_wavelength_nm;
   if (line.frame && *line.frame != info.frame)
     o.rest_wavelength_nm = ConvertWavelength_nm(line.rest_wavelength_nm, *line.frame, info.frame);
@@ -202,7 +216,8 @@ void RunMap(const MapArgs& a) {
      << o.continuum_exclude_nm << "|" << o.noise_rel << "|" << a.transverse << "|" << o.core_halfwidth_nm << "|"
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
      << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
-     << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me;
+     << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me << "|"
+     << o.mixed_from_gauss;
   for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;
   run.fingerprint = fp.str();
@@ -314,6 +329,7 @@ void RunMap(const MapArgs& a) {
     for (auto q : maps.quality) flagged += q != 0;
     std::printf("maps: %s (%ld x %ld pixels, %zu HDUs)\n", a.output.c_str(), maps.nx, maps.ny, hdus.size() + 1);
     std::printf("line: %s\n", line.description.c_str());
+    if (!split_regime.empty()) std::printf("split: %s\n", split_regime.c_str());
     std::printf("method per pixel: wfa %lld, cog %lld, split %lld, me %lld; pixels with QUALITY flags: %ld\n",
                 static_cast<long long>(maps.method_counts[1]), static_cast<long long>(maps.method_counts[2]),
                 static_cast<long long>(maps.method_counts[3]), static_cast<long long>(maps.method_counts[4]), flagged);

@@ -129,6 +129,8 @@ class PixelProcessor {
     split_.g_eff = o.pattern.g_eff;
     split_.window_halfwidth_nm = lay.window_halfwidth_nm;
     split_.resolution_ratio = o.resolution_ratio;
+    split_.mixed_regime = o.mixed_splitting;
+    split_.mixed_from_gauss = o.mixed_from_gauss;
     lorentz_per_gauss_ = LorentzUnit_nm(o.rest_wavelength_nm, 1.0);
   }
 

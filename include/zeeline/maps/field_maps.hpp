@@ -32,10 +32,12 @@
 #include <atomic>
 #include <cstdint>
 #include <functional>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
 
+#include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/io/cube_reader.hpp"
 #include "zeeline/maps/disambiguation.hpp"
@@ -77,6 +79,9 @@ struct FieldMapOptions {
   double wing_start_nm = 0.0;        ///< weak-field transverse wing region start
   double weak_ratio = kDefaultWeakRatio;  ///< r below which the weak-field answer is used (auto) / valid (wfa)
   double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
+  /// Set: the split estimator's |B| beyond the linear regime (full_splitting.hpp) above mixed_from_gauss.
+  std::shared_ptr<const SigmaSplittingTable> mixed_splitting;
+  double mixed_from_gauss = 0.0;
   double detection_sigma = 3.0;      ///< LOW_SIGNAL below this many sigma in both B_LOS and B_TRANS
   bool need_transverse = false;      ///< refuse cubes without Q and U (the caller asked for B_TRANS)
   int threads = 0;                   ///< 0 = all available (OpenMP)
