@@ -34,7 +34,7 @@
 // Linear breakdown field. With s_k(B) the shifts above and s_k^lin the linear ones, the breakdown field is
 // the smallest B at which max_k |s_k(B) - s_k^lin| exceeds 10 % of the strength-weighted mean |s^lin| of the
 // sigma components (components matched by their labels). It is found on a logarithmic grid (16 points per
-// decade, 1e-3 G to 1e8 G) and refined by bisection to 1e-6 relative; +infinity when the pattern never departs
+// decade, 1e-3 G to 1e8 G) and refined by bisection to 1e-7 relative; +infinity when the pattern never departs
 // (e.g. singlet terms, or terms of a single level). The regime `auto` uses the mixed pattern when the field
 // exceeds a tenth of the breakdown field.
 #pragma once

@@ -39,7 +39,8 @@
 // Resolved: the sigma separation is at least `resolution_ratio` times the FWHM of one observed component
 // (Voigt FWHM from Olivero & Longbothum 1977, f_V = 0.5346 f_L + sqrt(0.2166 f_L^2 + f_G^2)) and at least
 // three times its own uncertainty, and the fitted profile shows it: the line term has a local extremum
-// (a peak for emission, a dip for absorption) within half a component FWHM of both sigma centroids. The
+// (a peak for emission, a dip for absorption) within half a component FWHM of each sigma centroid or of the
+// strongest line of that sigma group (a widely spread group, as beyond the linear regime, peaks there). The
 // last condition keeps a saturated, flat-bottomed single line -- which a split model can imitate -- from
 // being called resolved.
 #pragma once
