@@ -27,11 +27,12 @@ namespace zeeline::cli {
 namespace {
 
 struct MapArgs {
-  std::string cube, output, method = "auto", window, continuum_exclude, transverse = "core", core, wing_start;
+  std::string cube, output, method = "auto", window, continuum_exclude, transverse = "corrected", core, wing_start;
   std::string png_dir;
   LineSelectionArgs line;
   double noise = 0.0, weak_ratio = FieldMapOptions{}.weak_ratio, resolution_ratio = FieldMapOptions{}.resolution_ratio,
-         detection_sigma = FieldMapOptions{}.detection_sigma;
+         detection_sigma = FieldMapOptions{}.detection_sigma, transverse_detection = FieldMapOptions{}.transverse_detection,
+         shape_test_sigma = FieldMapOptions{}.consistency_sigma;
   int threads = 0, v_sign = 1;
   bool overwrite = false, resume = false, require_transverse = false, quiet = false;
   // Milne-Eddington and disambiguation options.
@@ -201,6 +202,8 @@ void RunMap(const MapArgs& a) {
   o.weak_ratio = a.weak_ratio;
   o.resolution_ratio = a.resolution_ratio;
   o.detection_sigma = a.detection_sigma;
+  o.transverse_detection = a.transverse_detection;
+  o.consistency_sigma = a.shape_test_sigma;
   o.need_transverse = a.require_transverse;
   o.threads = a.threads;
   ApplyMeOptions(a, o);
@@ -217,7 +220,7 @@ void RunMap(const MapArgs& a) {
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
      << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
      << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me << "|"
-     << o.mixed_from_gauss;
+     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.consistency_sigma;
   for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;
   run.fingerprint = fp.str();
@@ -362,12 +365,20 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("--window", a->window, "half-width of the fit window around the line, e.g. 0.012nm (default: from the mean line profile)");
   cmd->add_option("--continuum-exclude", a->continuum_exclude, "continuum = samples farther than this from the line (default: the window)");
   cmd->add_option("--noise", a->noise, "noise in units of the continuum (default: measured in the continuum)");
-  cmd->add_option("--transverse", a->transverse, "weak-field B_TRANS region: core | wings | core+wings | whole")->capture_default_str();
+  cmd->add_option("--transverse", a->transverse,
+                  "weak-field B_TRANS form: corrected (whole line, saturation-corrected) | core | wings | core+wings | whole")
+      ->capture_default_str();
   cmd->add_option("--core", a->core, "weak-field core half-width, e.g. 0.006nm");
-  cmd->add_option("--wing-start", a->wing_start, "weak-field wing region start from line centre, e.g. 0.008nm");
-  cmd->add_option("--weak-ratio", a->weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w below this (w = 1/e half-width of the line), docs/methods.md")->capture_default_str();
+  cmd->add_option("--wing-start", a->wing_start, "weak-field wing region start from line centre, e.g. 0.008nm (default 4.8 Doppler widths)");
+  cmd->add_option("--weak-ratio", a->weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w_D below this (w_D = Doppler width from the line core), docs/methods.md")->capture_default_str();
   cmd->add_option("--resolution-ratio", a->resolution_ratio, "splitting/width above which sigma groups are resolved")->capture_default_str();
   cmd->add_option("--detection-sigma", a->detection_sigma, "LOW_SIGNAL below this many sigma")->capture_default_str();
+  cmd->add_option("--transverse-detection", a->transverse_detection,
+                  "LOW_TRANSVERSE where the weak-field B_T^2 is below this many of its sigma")
+      ->capture_default_str();
+  cmd->add_option("--shape-test-sigma", a->shape_test_sigma,
+                  "weak-field model rejected (MODEL_MISMATCH / not weak) where its chi2 exceeds 1 by this many sigma")
+      ->capture_default_str();
   cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
   cmd->add_flag("--require-transverse", a->require_transverse, "refuse cubes without Stokes Q and U");
   cmd->add_option("--threads", a->threads, "worker threads (0 = all cores)")->capture_default_str();

@@ -35,7 +35,7 @@ struct MeasureArgs {
   std::optional<double> g_eff, damping;
   bool emission = false, absorption = false, json = false, overwrite = false;
   int free_components = 0, realisations = 200, v_sign = 1;
-  double noise = 0.0, weak_ratio = MeasureOptions{}.weak_ratio, resolution_ratio = 1.0;
+  double noise = 0.0, weak_ratio = MeasureOptions{}.weak_ratio, resolution_ratio = MeasureOptions{}.resolution_ratio;
 };
 
 const char* kSafetyNote =

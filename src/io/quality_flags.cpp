@@ -9,7 +9,9 @@ std::vector<std::string> QualityBitNames(std::uint32_t flags) {
   } kBits[] = {{kQualityNonFiniteInput, "NONFINITE_INPUT"}, {kQualityLowSignal, "LOW_SIGNAL"},
                {kQualityNotConverged, "NOT_CONVERGED"},     {kQualityOutOfRange, "OUT_OF_RANGE"},
                {kQualityMasked, "MASKED"},                  {kQualityBadFit, "BAD_FIT"},
-               {kQualityNoContinuum, "NO_CONTINUUM"}};
+               {kQualityNoContinuum, "NO_CONTINUUM"},       {kQualitySaturatedLine, "SATURATED_LINE"},
+               {kQualityModelMismatch, "MODEL_MISMATCH"},   {kQualityInconsistent, "INCONSISTENT"},
+               {kQualityLowTransverse, "LOW_TRANSVERSE"}};
   std::vector<std::string> out;
   std::uint32_t known = 0;
   for (const auto& b : kBits) {

@@ -17,8 +17,10 @@
 #include "zeeline/core/units.hpp"
 #include "zeeline/io/quality_flags.hpp"
 #include "zeeline/maps/centre_of_gravity.hpp"
+#include "zeeline/maps/field_vector.hpp"
 #include "zeeline/maps/full_splitting.hpp"
 #include "zeeline/maps/pixel_spectrum.hpp"
+#include "zeeline/maps/weak_field_regime.hpp"
 
 namespace zeeline {
 namespace {
@@ -96,19 +98,17 @@ double LineHalfWidth(const PixelSpectrum& s, double ic, double centre, double wi
   return std::sqrt(2.0 * m2 / m0);
 }
 
-void SetVector(PixelOut& out, double blos, double blos_err, double bt, double bt_err) {
-  const double f = std::hypot(blos, bt);
+// All maps of a B_LOS + B_T answer; |B| and inclination with the errors of field_vector.hpp.
+void SetVector(PixelOut& out, double blos, double blos_err, double bt, double bt_err, double bt_sq_err) {
   out.v[kSlotBlos] = static_cast<float>(blos);
   out.v[kSlotBlosErr] = static_cast<float>(blos_err);
   out.v[kSlotBtrans] = static_cast<float>(bt);
   out.v[kSlotBtransErr] = static_cast<float>(bt_err);
-  out.v[kSlotField] = static_cast<float>(f);
-  if (f > 0.0) {
-    out.v[kSlotFieldErr] = static_cast<float>(std::sqrt(blos * blos * blos_err * blos_err + bt * bt * bt_err * bt_err) / f);
-    out.v[kSlotInclination] = static_cast<float>(std::atan2(bt, blos) * kRadToDeg);
-    out.v[kSlotInclinationErr] =
-        static_cast<float>(std::sqrt(blos * blos * bt_err * bt_err + bt * bt * blos_err * blos_err) / (f * f) * kRadToDeg);
-  }
+  const FieldVector f = ComposeFieldVector(blos, blos_err, bt, bt_err, bt_sq_err);
+  out.v[kSlotField] = static_cast<float>(f.field_gauss);
+  out.v[kSlotFieldErr] = static_cast<float>(f.field_err_gauss);
+  out.v[kSlotInclination] = FiniteOrNaN(f.inclination_deg);
+  out.v[kSlotInclinationErr] = FiniteOrNaN(f.inclination_err_deg);
 }
 
 class PixelProcessor {
@@ -131,7 +131,8 @@ class PixelProcessor {
     split_.resolution_ratio = o.resolution_ratio;
     split_.mixed_regime = o.mixed_splitting;
     split_.mixed_from_gauss = o.mixed_from_gauss;
-    lorentz_per_gauss_ = LorentzUnit_nm(o.rest_wavelength_nm, 1.0);
+    regime_.weak_ratio = o.weak_ratio;
+    regime_.consistency_sigma = o.consistency_sigma;
   }
 
   void Process(const PixelSpectrum& s, bool nonfinite, PixelOut& out) {
@@ -155,27 +156,31 @@ class PixelProcessor {
     MapMethod m = o_.method;
     bool out_of_range = false;
     SplittingResult sp;
-    double ratio = std::nan("");
+    SplitCheck split_check;
+    WeakFieldRegime regime;
     if (m == MapMethod::kAuto || m == MapMethod::kWeakField || m == MapMethod::kMilneEddington) {
-      // Strength proxy: the weak-field answer saturates (and can collapse) for strong fields, so the
-      // longitudinal part takes the larger of the weak-field and centre-of-gravity values.
-      const double los = std::max(w.has_blos ? std::fabs(w.blos_gauss) : 0.0, g.ok ? std::fabs(g.blos_gauss) : 0.0);
-      const double b = std::hypot(los, w.has_btrans ? w.btrans_gauss : 0.0);
-      const double width = LineHalfWidth(s, c.continuum, o_.rest_wavelength_nm, lay_.window_halfwidth_nm);
-      ratio = std::fabs(o_.pattern.g_eff) * lorentz_per_gauss_ * b / width;
+      // One regime decision for map and measure (weak_field_regime.hpp): a strength scale and a Doppler width that
+      // saturation does not bias, and the chi2 test of the weak-field model against the observed shapes.
+      const double fallback = LineHalfWidth(s, c.continuum, o_.rest_wavelength_nm, lay_.window_halfwidth_nm);
+      regime = AssessWeakFieldRegime(w, has_v_ ? &g : nullptr, o_.pattern.g_eff, o_.rest_wavelength_nm, o_.transverse,
+                            fallback, regime_);
       if (m == MapMethod::kMilneEddington) {
         // no choice to make
       } else if (m == MapMethod::kWeakField) {
-        out_of_range = !(ratio < o_.weak_ratio);
-      } else if (ratio < o_.weak_ratio) {
+        out_of_range = !regime.ratio_ok;
+        if (!regime.v_consistent || !regime.qu_consistent) out.quality |= kQualityModelMismatch;
+        if (regime.saturated_textbook) out.quality |= kQualitySaturatedLine;
+      } else if (regime.weak) {
         m = MapMethod::kWeakField;
+        if (regime.saturated_textbook) out.quality |= kQualitySaturatedLine;
       } else {
         sp = FullSplittingEstimate(s, c, split_);  // also the inversion's starting |B| when resolved
+        split_check = CheckSplit(sp, has_v_ ? &g : nullptr, o_.resolution_ratio);
         if (me_ && o_.auto_me && has_qu_ && has_v_) {
           // Full Stokes beyond the weak-field regime: the inversion models intermediate and resolved
           // splitting alike, and unlike the splitting fit it is not misled by saturated line cores.
           m = MapMethod::kMilneEddington;
-        } else if (sp.ok && sp.resolved) {
+        } else if (split_check.valid) {
           m = MapMethod::kSplitting;
         } else {
           m = has_v_ ? MapMethod::kCentreOfGravity : MapMethod::kWeakField;
@@ -184,7 +189,9 @@ class PixelProcessor {
       }
     } else if (m == MapMethod::kSplitting) {
       sp = FullSplittingEstimate(s, c, split_);
-      out_of_range = !sp.resolved;
+      split_check = CheckSplit(sp, has_v_ ? &g : nullptr, o_.resolution_ratio);
+      out_of_range = !split_check.resolved;
+      if (split_check.inconsistent) out.quality |= kQualityInconsistent;
     }
     out.method = static_cast<std::int16_t>(m);
 
@@ -192,7 +199,7 @@ class PixelProcessor {
       case MapMethod::kWeakField:
         if (w.has_btrans) {
           SetVector(out, w.has_blos ? w.blos_gauss : 0.0, w.has_blos ? w.blos_err_gauss : 0.0, w.btrans_gauss,
-                    w.btrans_err_gauss);
+                    w.btrans_err_gauss, w.btrans_sq_err_gauss2);
           if (!w.has_blos) out.v[kSlotBlos] = out.v[kSlotBlosErr] = kNaN;
         } else if (w.has_blos) {
           out.v[kSlotBlos] = static_cast<float>(w.blos_gauss);
@@ -206,30 +213,49 @@ class PixelProcessor {
         }
         if (o_.method == MapMethod::kAuto && w.has_btrans && g.ok) {
           // Auto fallback: transverse field from the weak-field fit, outside its validity range.
-          SetVector(out, g.blos_gauss, g.blos_err_gauss, w.btrans_gauss, w.btrans_err_gauss);
+          SetVector(out, g.blos_gauss, g.blos_err_gauss, w.btrans_gauss, w.btrans_err_gauss, w.btrans_sq_err_gauss2);
           out_of_range = true;
         }
         break;
       case MapMethod::kSplitting: {
+        // An unresolved split measures no |B| (its separation is then unconstrained): only the centre of
+        // gravity's B_LOS is written, and the pixel carries OUT_OF_RANGE.
+        if (g.ok) {
+          out.v[kSlotBlos] = static_cast<float>(g.blos_gauss);
+          out.v[kSlotBlosErr] = static_cast<float>(g.blos_err_gauss);
+        }
+        if (!split_check.resolved) break;
         const double f = sp.field_gauss, fe = sp.field_err_gauss;
         out.v[kSlotField] = static_cast<float>(f);
         out.v[kSlotFieldErr] = static_cast<float>(fe);
         out.v[kSlotChi2] = static_cast<float>(sp.chi2_reduced);
         if (g.ok && f > 0.0) {
-          const double l = std::clamp(g.blos_gauss, -f, f), le = g.blos_err_gauss;
-          const double bt = std::sqrt(std::max(f * f - l * l, 0.0));
+          const double le = g.blos_err_gauss;
           out.v[kSlotBlos] = static_cast<float>(g.blos_gauss);
           out.v[kSlotBlosErr] = static_cast<float>(le);
-          out.v[kSlotBtrans] = static_cast<float>(bt);
-          out.v[kSlotBtransErr] = static_cast<float>(bt > 0.0 ? std::hypot(f * fe, l * le) / bt : fe);
-          out.v[kSlotInclination] = static_cast<float>(std::acos(l / f) * kRadToDeg);
-          const double root = std::sqrt(std::max(1.0 - (l / f) * (l / f), 1e-12));
-          out.v[kSlotInclinationErr] = static_cast<float>(std::hypot(le / f, l * fe / (f * f)) / root * kRadToDeg);
+          if (split_check.inconsistent) {
+            // |B| from the split below the centre-of-gravity |B_LOS| (CheckSplit): the two cannot both be
+            // right, so no inclination or transverse field is derived from them.
+            out.quality |= kQualityInconsistent;
+          } else {
+            // Inclination and B_T from x = B_LOS/|B|; errors as half the spread over x +- sigma_x (clamped to
+            // [-1, 1]), which stays finite where the linear propagation diverges (|x| -> 1).
+            const double x = std::clamp(g.blos_gauss / f, -1.0, 1.0);
+            const double sx = std::hypot(le / f, g.blos_gauss * fe / (f * f));
+            const double xlo = std::clamp(x - sx, -1.0, 1.0), xhi = std::clamp(x + sx, -1.0, 1.0);
+            out.v[kSlotInclination] = static_cast<float>(std::acos(x) * kRadToDeg);
+            out.v[kSlotInclinationErr] = static_cast<float>(0.5 * (std::acos(xlo) - std::acos(xhi)) * kRadToDeg);
+            auto trans = [f](double xx) { return f * std::sqrt(std::max(1.0 - xx * xx, 0.0)); };
+            const double bt = trans(x);
+            const double bt_spread = std::fabs(trans(xlo) - trans(xhi)) * 0.5;
+            out.v[kSlotBtrans] = static_cast<float>(bt);
+            out.v[kSlotBtransErr] = static_cast<float>(std::hypot(bt_spread, fe * std::sqrt(std::max(1.0 - x * x, 0.0))));
+          }
         }
         break;
       }
       case MapMethod::kMilneEddington:
-        ProcessMe(s, c, w, g, sp, ratio, out);
+        ProcessMe(s, c, w, g, sp, regime.weak, out);
         return;
       default:
         break;
@@ -252,6 +278,11 @@ class PixelProcessor {
     }
 
     if (out_of_range) out.quality |= kQualityOutOfRange;
+    // Weak-field transverse answers: B_T^2 is the Gaussian quantity; below transverse_detection sigma the
+    // skewed B_T, inclination and azimuth can sit several of their own sigma from the truth (field_vector.hpp).
+    if ((m == MapMethod::kWeakField || m == MapMethod::kCentreOfGravity) && w.has_btrans &&
+        std::isfinite(out.v[kSlotBtrans]) && w.btrans_snr < o_.transverse_detection)
+      out.quality |= kQualityLowTransverse;
     const double k = o_.detection_sigma;
     const bool blos_seen = std::isfinite(out.v[kSlotBlos]) && std::fabs(out.v[kSlotBlos]) > k * out.v[kSlotBlosErr];
     const bool bt_seen = std::isfinite(out.v[kSlotBtrans]) && out.v[kSlotBtrans] > k * out.v[kSlotBtransErr];
@@ -264,13 +295,12 @@ class PixelProcessor {
  private:
   // Milne-Eddington pixel: hints from the cheaper estimators, then the inversion (me_inversion.hpp).
   void ProcessMe(const PixelSpectrum& s, const ContinuumEstimate& c, const WeakFieldResult& w,
-                 const CentreOfGravityResult& g, const SplittingResult& sp, double ratio, PixelOut& out) {
+                 const CentreOfGravityResult& g, const SplittingResult& sp, bool weak, PixelOut& out) {
     MeStartHints h;
     // B_LOS: the weak-field value in its regime, the centre of gravity (valid at any strength) otherwise.
-    const bool weak = std::isfinite(ratio) && ratio < o_.weak_ratio;
     if (w.has_blos && (weak || !g.ok)) h.blos_gauss = w.blos_gauss;
     else if (g.ok) h.blos_gauss = g.blos_gauss;
-    if (w.has_btrans) {
+    if (w.has_btrans && std::isfinite(w.azimuth_deg)) {
       h.btrans_gauss = w.btrans_gauss;
       h.azimuth_deg = w.azimuth_deg;
     }
@@ -316,7 +346,7 @@ class PixelProcessor {
   CentreOfGravityOptions cog_;
   SplittingOptions split_;
   WeakFieldWorkspace wfa_work_;
-  double lorentz_per_gauss_ = 0.0;
+  WeakFieldRegimeOptions regime_;
 };
 
 // ---- checkpoints: a small binary file rewritten (temp + rename) after every tile.
@@ -395,8 +425,9 @@ std::string FieldMapOptions::Validate() const {
   else if (threads < 0 || threads > 1024) m << "threads = " << threads << " must be in [0, 1024]";
   else if (const std::string me_problem = me.Validate(); !me_problem.empty()) m << me_problem;
   else if (const std::string d_problem = disambiguation.Validate(); !d_problem.empty()) m << d_problem;
-  else if ((transverse == TransverseRegion::kWings || transverse == TransverseRegion::kCoreAndWings) && !(wing_start_nm > 0.0))
-    m << "transverse region '" << ToString(transverse) << "' needs a wing start > 0 nm";
+  else if (!(wing_start_nm >= 0.0)) m << "wing start = " << wing_start_nm << " nm must be >= 0 (0 = 4.8 Doppler widths)";
+  else if (!(consistency_sigma > 0.0)) m << "consistency sigma = " << consistency_sigma << " must be > 0";
+  else if (!(transverse_detection >= 0.0)) m << "transverse detection = " << transverse_detection << " must be >= 0";
   else {
     for (std::size_t i = 0; i < extra_lines.size(); ++i) {
       const MeLine& l = extra_lines[i];

@@ -90,6 +90,9 @@ ContinuumEstimate EstimateContinuum(const PixelSpectrum& s, const std::vector<st
   if (given_noise_rel > 0.0) {
     const double sigma = given_noise_rel * std::fabs(c.continuum);
     c.noise_I = c.noise_Q = c.noise_U = c.noise_V = sigma;
+    c.noise_dof = HUGE_VAL;
+  } else {
+    c.noise_dof = 0.514 * static_cast<double>(c.samples);
   }
   return c;
 }

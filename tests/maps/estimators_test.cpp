@@ -211,6 +211,8 @@ TEST(EstimatorOptions, ValidateNamesTheBadField) {
   EXPECT_NE(w.Validate().find("g_eff"), std::string::npos);
   w.g_eff = 2.5;
   w.transverse = TransverseRegion::kWings;
+  EXPECT_EQ(w.Validate(), "");  // the wing start defaults to 4.8 Doppler widths of the measured line
+  w.wing_start_nm = -0.01;
   EXPECT_NE(w.Validate().find("wing_start_nm"), std::string::npos);
   CentreOfGravityOptions c{630.0, 0.0, 0.0};
   EXPECT_NE(c.Validate().find("g_eff"), std::string::npos);

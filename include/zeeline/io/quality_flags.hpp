@@ -19,6 +19,10 @@ enum QualityBit : std::uint32_t {
   kQualityMasked = 1u << 4,          ///< pixel not processed (user mask or off-target)
   kQualityBadFit = 1u << 5,          ///< fit residual (CHI2) above the acceptance threshold
   kQualityNoContinuum = 1u << 6,     ///< continuum intensity not positive / not found
+  kQualitySaturatedLine = 1u << 7,   ///< saturated line and a transverse form that saturation biases
+  kQualityModelMismatch = 1u << 8,   ///< the method's model does not describe the observed profile shapes
+  kQualityInconsistent = 1u << 9,    ///< the method's outputs contradict each other or another estimate
+  kQualityLowTransverse = 1u << 10,  ///< linear polarisation too weak: B_T, inclination, azimuth noise-dominated
 };
 
 /// Names of the bits set in `flags`, e.g. {"NONFINITE_INPUT", "LOW_SIGNAL"}.

@@ -10,9 +10,8 @@
 //          from the wfa/cog estimates; all maps with errors from the covariance, CHI2 = reduced chi2;
 //          QUALITY NOT_CONVERGED / BAD_FIT from the fit. Extra lines (extra_lines) share B, angles, vlos and
 //          the thermodynamics with the main line.
-//   auto   per pixel: r = g_eff Delta lambda_B(B*) / w, with B* = hypot(max(|BLOS_wfa|, |BLOS_cog|), BTRANS_wfa) and
-//          w the 1/e half-width of the line (from the second moment of the absorption). r < weak_ratio
-//          (default 0.3) -> wfa; otherwise, when the cube has Q, U and V and auto_me is set (the default),
+//   auto   per pixel, the regime decision of weak_field_regime.hpp (splitting ratio from saturation-proof estimates and
+//          the chi2 shape test of the weak-field model): weak -> wfa; otherwise, when the cube has Q, U and V and auto_me is set (the default),
 //          me (started from the splitting fit's |B| when that is resolved); without them, split if the
 //          sigma groups are resolved, else cog for B_LOS/V_LOS with the weak-field transverse field flagged
 //          OUT_OF_RANGE.
@@ -74,10 +73,12 @@ struct FieldMapOptions {
   double window_halfwidth_nm = 0.0;  ///< fit window around the rest wavelength; 0 = from the line width
   double continuum_exclude_nm = 0.0; ///< continuum = samples farther than this from the line; 0 = auto
   double noise_rel = 0.0;            ///< noise in units of the continuum; 0 = measured per pixel
-  TransverseRegion transverse = TransverseRegion::kCore;
+  TransverseRegion transverse = TransverseRegion::kCorrected;
   double core_halfwidth_nm = 0.0;    ///< weak-field transverse core region (0 = whole window)
-  double wing_start_nm = 0.0;        ///< weak-field transverse wing region start
-  double weak_ratio = kDefaultWeakRatio;  ///< r below which the weak-field answer is used (auto) / valid (wfa)
+  double wing_start_nm = 0.0;        ///< weak-field transverse wing region start (0 = 4.8 Doppler widths)
+  double weak_ratio = kDefaultWeakRatio;  ///< splitting/Doppler width below which the weak-field answer is used (auto) / valid (wfa)
+  double consistency_sigma = 5.0;    ///< weak-field chi2 shape test threshold (weak_field_regime.hpp)
+  double transverse_detection = 6.0; ///< LOW_TRANSVERSE below this many sigma of the weak-field B_T^2
   double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
   /// Set: the split estimator's |B| beyond the linear regime (full_splitting.hpp) above mixed_from_gauss.
   std::shared_ptr<const SigmaSplittingTable> mixed_splitting;

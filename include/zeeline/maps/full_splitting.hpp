@@ -12,7 +12,10 @@
 // the analytic Jacobian; uncertainties from the covariance sigma_I^2 (J^T J)^-1 at the solution.
 // Peak positions therefore come from a profile fit, not from the brightest sample.
 // Validity: the components are called resolved when s >= resolution_ratio * w (default 1: the splitting
-// exceeds the component's Doppler half-width); otherwise the estimate is reported with resolved = false.
+// exceeds the component's Doppler half-width), s is 3 sigma significant, and the fitted profile shows a
+// separate dip (peak for emission) within w/2 of each sigma position -- the rule of the component fit of
+// `measure` (measure/component_fit.hpp), which keeps a saturated flat core from being called resolved;
+// otherwise the estimate is reported with resolved = false.
 // Beyond the linear regime (incomplete Paschen–Back, atomic/paschen_back.hpp): with `mixed_regime` set and the
 // linear estimate above `mixed_from_gauss` (a tenth of the line's breakdown field, or 0 to force it), |B| solves
 //   s = g_split(B) C B,   g_split(B) = half the sigma-centroid separation of the mixed pattern in Lorentz units

@@ -30,6 +30,10 @@ struct ContinuumEstimate {
   double continuum = 0.0;
   double noise_I = 0.0, noise_Q = 0.0, noise_U = 0.0, noise_V = 0.0;
   std::size_t samples = 0;  ///< continuum samples used
+  /// Degrees of freedom of the noise estimate: sigma^2 from n second differences scatters like chi2 with
+  /// 0.514 n dof (white noise: the differences have correlations -2/3 and 1/6 at lags 1 and 2, so
+  /// var(sigma^2)/sigma^4 = 3.89/n; derived here); infinite when the noise was given.
+  double noise_dof = 0.0;
 };
 
 /// The checks every single-line estimator makes on its options: a positive rest wavelength, a magnetically

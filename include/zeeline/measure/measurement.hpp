@@ -10,17 +10,18 @@
 // per-Stokes noise) comes from the samples outside the window (maps/pixel_spectrum.hpp).
 // Emission or absorption: the larger of max(I - Ic) and max(Ic - I) in the window, unless forced.
 //
-// Estimates and verdicts (r = |g_eff| Delta lambda_B(B*) / w, with w the observed 1/e half-width of one
-// component from the fit and B* the largest of the weak-field |B|, a significant (3 sigma) COG |B_LOS| and
-// a resolved split field):
-//   wfa    weak_field.hpp: B_LOS (needs V), B_TRANS and azimuth (need Q, U and G != 0); valid when
-//          r < weak_ratio (default kDefaultWeakRatio = 0.15, as in `map`; LL04 sect. 9.6 asks
-//          g_eff Delta lambda_B << Delta lambda_D).
+// Estimates and verdicts: r, B* and the weak-field verdict come from the regime decision that `zeeline map`
+// makes (maps/weak_field_regime.hpp: saturation-proof strength scale and Doppler width, chi2 shape test); the
+// split_3gauss verdict from the checks the map's split estimator makes (CheckSplit, weak_field_regime.hpp).
+//   wfa    weak_field.hpp: B_LOS (needs V), B_TRANS and azimuth (need Q, U and G != 0); valid when the regime
+//          decision calls the spectrum weak (default weak_ratio 0.15, the same as map's).
 //   cog    centre_of_gravity.hpp: B_LOS and V_LOS (needs V); valid at any field strength (Rees & Semel
 //          1979), exact for a normal triplet and approximate for anomalous patterns (Uitenbroek 2003).
-//   split  the Zeeman component fit: |B| and V_LOS; valid when the sigma groups are resolved.
+//   split  the Zeeman component fit: |B| and V_LOS; valid when the sigma groups are resolved; the verdict
+//          states which of the resolution tests failed.
 //   split_3gauss  full_splitting.hpp (the estimator `zeeline map --method split` uses): |B|, V_LOS; valid
-//          when its sigma groups are resolved.
+//          when its sigma groups are resolved, the line is not saturated, |B| is not below the COG |B_LOS|,
+//          and the regime decision does not call the field weak.
 //   me     maps/me_inversion.hpp, a Milne-Eddington inversion of all Stokes parameters present, started
 //          from the cheaper estimates: B, inclination, azimuth, B_LOS, B_TRANS, V_LOS; absorption lines with
 //          a known pattern only; valid when it converged with reduced chi2 below the inverter's bad-fit
@@ -41,6 +42,7 @@
 #include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/maps/map_method.hpp"
+#include "zeeline/maps/weak_field_regime.hpp"
 #include "zeeline/measure/component_fit.hpp"
 #include "zeeline/measure/spectrum_reader.hpp"
 #include "zeeline/measure/stokes_characteristics.hpp"
@@ -89,6 +91,7 @@ struct Measurement {
   double line_peak_sigma = 0.0;              ///< max |Ic - I| / sigma_I in the window
   double observed_width_nm = 0.0;            ///< w used in r (1/e half-width of one component)
   double splitting_ratio = 0.0;              ///< r
+  double saturation = 0.0;                   ///< saturation index u of the line core (maps/line_core.hpp)
   double field_scale_gauss = 0.0;            ///< B*
   ComponentFitResult components;
   StokesCharacteristics characteristics;
