@@ -401,8 +401,9 @@ std::string QuicklookOptions::Validate() const {
 
 namespace {
 
-// Categorical colours (chosen for zeeline: distinct hues of similar weight, none close to white or grey).
-constexpr std::array<std::array<unsigned char, 3>, 10> kCategoryColours = {{{31, 119, 180},
+// Categorical colours (chosen for zeeline: distinct hues of similar weight, none close to white or grey); at least
+// as many as QUALITY bits in use, so no two bits share a colour.
+constexpr std::array<std::array<unsigned char, 3>, 14> kCategoryColours = {{{31, 119, 180},
                                                                            {230, 120, 20},
                                                                            {40, 160, 60},
                                                                            {200, 40, 40},
@@ -411,7 +412,11 @@ constexpr std::array<std::array<unsigned char, 3>, 10> kCategoryColours = {{{31,
                                                                            {220, 110, 190},
                                                                            {90, 90, 90},
                                                                            {180, 180, 30},
-                                                                           {20, 180, 200}}};
+                                                                           {20, 180, 200},
+                                                                           {0, 70, 60},
+                                                                           {250, 200, 120},
+                                                                           {110, 40, 90},
+                                                                           {150, 210, 130}}};
 
 const HeaderValue* FindKeyword(const ImageHdu& hdu, const std::string& key) {
   for (const auto& k : hdu.keywords)
