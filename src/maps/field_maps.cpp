@@ -161,7 +161,9 @@ class PixelProcessor {
     if (m == MapMethod::kAuto || m == MapMethod::kWeakField || m == MapMethod::kMilneEddington) {
       // One regime decision for map and measure (weak_field_regime.hpp): a strength scale and a Doppler width that
       // saturation does not bias, and the chi2 test of the weak-field model against the observed shapes.
-      const double fallback = LineHalfWidth(s, c.continuum, o_.rest_wavelength_nm, lay_.window_halfwidth_nm);
+      // The second-moment width is only the fallback when the core shape could not be read.
+      const double fallback =
+          w.core.ok ? std::nan("") : LineHalfWidth(s, c.continuum, o_.rest_wavelength_nm, lay_.window_halfwidth_nm);
       regime = AssessWeakFieldRegime(w, has_v_ ? &g : nullptr, o_.pattern.g_eff, o_.rest_wavelength_nm, o_.transverse,
                             fallback, regime_);
       if (m == MapMethod::kMilneEddington) {
