@@ -30,11 +30,6 @@ const float kNaN = std::numeric_limits<float>::quiet_NaN();
 
 // Line window and continuum samples derived once from the wavelength grid (and, when not given, from the
 // spatially averaged I of the first tile).
-struct SpectralLayout {
-  double window_halfwidth_nm = 0.0;
-  std::vector<std::size_t> continuum;
-};
-
 SpectralLayout ChooseLayout(const std::vector<double>& wl, const std::vector<double>& mean_I,
                             const FieldMapOptions& o) {
   SpectralLayout lay;
@@ -354,7 +349,7 @@ class PixelProcessor {
 // ---- checkpoints: a small binary file rewritten (temp + rename) after every tile.
 constexpr char kCheckpointMagic[8] = {'Z', 'L', 'C', 'K', 'P', 'T', '0', '1'};
 
-void SaveCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+void SaveCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
   const std::string tmp = path + ".tmp";
   {
     std::ofstream out(tmp, std::ios::binary | std::ios::trunc);
@@ -375,7 +370,7 @@ void SaveCheckpoint(const std::string& path, const std::string& fingerprint, con
   if (std::rename(tmp.c_str(), path.c_str()) != 0) throw FitsError(path + ": cannot rename the checkpoint into place");
 }
 
-bool LoadCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
+bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
   std::ifstream in(path, std::ios::binary);
   if (!in) return false;
   char magic[8];
@@ -449,21 +444,31 @@ std::string FieldMapOptions::Validate() const {
   return m.str();
 }
 
-RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const FieldMapRunOptions& run, FieldMaps& maps) {
+void SaveFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& maps) {
+  SaveCheckpointFile(path, fingerprint, maps);
+}
+
+bool LoadFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& maps) {
+  return LoadCheckpointFile(path, fingerprint, maps);
+}
+
+FieldMapEngine::FieldMapEngine(const CubeInfo& info, const FieldMapOptions& o) : info_(info), o_(o) {
   const std::string problem = o.Validate();
   if (!problem.empty()) throw OptionError(problem);
-  const CubeInfo& info = reader.info();
-  const int si = info.StokesIndex(StokesParameter::kI), sq = info.StokesIndex(StokesParameter::kQ),
-            su = info.StokesIndex(StokesParameter::kU), sv = info.StokesIndex(StokesParameter::kV);
+  si_ = info.StokesIndex(StokesParameter::kI);
+  sq_ = info.StokesIndex(StokesParameter::kQ);
+  su_ = info.StokesIndex(StokesParameter::kU);
+  sv_ = info.StokesIndex(StokesParameter::kV);
   std::string present;
   for (auto s : info.stokes) present += ToString(s);
-  if (si < 0)
+  if (si_ < 0)
     throw FitsError(info.path + ": the STOKES axis holds " + present + " but every method needs Stokes I (code 1)");
-  const bool has_qu = sq >= 0 && su >= 0, has_v = sv >= 0;
-  if (o.need_transverse && !has_qu)
+  has_qu_ = sq_ >= 0 && su_ >= 0;
+  has_v_ = sv_ >= 0;
+  if (o.need_transverse && !has_qu_)
     throw FitsError(info.path + ": the STOKES axis holds " + present +
                     " only; B_TRANS, B_AZIM, B_TOTAL and B_INCL need Stokes Q and U (codes 2 and 3)");
-  if (!has_v && (o.method == MapMethod::kWeakField || o.method == MapMethod::kCentreOfGravity))
+  if (!has_v_ && (o.method == MapMethod::kWeakField || o.method == MapMethod::kCentreOfGravity))
     throw FitsError(info.path + ": the STOKES axis holds " + present + "; method '" + ToString(o.method) +
                     "' needs Stokes V (code 4) for B_LOS");
   if (info.wavelength_nm.size() < 10)
@@ -477,58 +482,119 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
       << info.wavelength_nm.back() << " nm; check the line and the air/vacuum frame";
     throw FitsError(m.str());
   }
+  if (o.disambiguate && !has_qu_)
+    throw FitsError(info.path + ": the STOKES axis holds " + present +
+                    "; azimuth disambiguation needs Stokes Q and U (codes 2 and 3)");
+  if (o.method == MapMethod::kMilneEddington && !has_v_ && !has_qu_)
+    throw FitsError(info.path + ": the STOKES axis holds " + present + "; method 'me' needs Stokes V or Q and U");
+  // One inverter shared by all threads (const, thread-safe); each thread has its own workspace.
+  if (o.method == MapMethod::kMilneEddington || (o.method == MapMethod::kAuto && o.auto_me)) {
+    MeInversionOptions mo = o.me;
+    if (!has_qu_) mo.stokes_weights[1] = mo.stokes_weights[2] = 0.0;
+    if (!has_v_) mo.stokes_weights[3] = 0.0;
+    std::vector<MeLine> lines(1);
+    lines[0].wavelength_nm = o.rest_wavelength_nm;
+    lines[0].pattern = o.pattern;
+    lines.insert(lines.end(), o.extra_lines.begin(), o.extra_lines.end());
+    inverter_ = std::make_unique<MeInverter>(lines, mo);
+  }
+}
 
-  maps.nx = info.nx;
-  maps.ny = info.ny;
-  maps.has_transverse = has_qu;
-  const std::size_t np = static_cast<std::size_t>(info.nx * info.ny);
+FieldMapEngine::~FieldMapEngine() = default;
+
+void FieldMapEngine::ChooseLayout(CubeReader& reader) {
+  // The spectral layout always comes from the first tile, so a resumed run makes the same choices.
+  const std::size_t nw = info_.wavelength_nm.size();
+  CubeTile tile;
+  reader.ReadRows(0, std::min(reader.rows_per_tile(), info_.ny), tile);
+  std::vector<double> mean_I(nw, 0.0);
+  std::vector<long> count(nw, 0);
+  for (long p = 0; p < tile.n_pixels(); ++p) {
+    if (tile.nonfinite[static_cast<std::size_t>(p)]) continue;
+    const double* I = tile.Spectrum(p, si_);
+    for (std::size_t k = 0; k < nw; ++k) {
+      mean_I[k] += I[k];
+      ++count[k];
+    }
+  }
+  for (std::size_t k = 0; k < nw; ++k) mean_I[k] = count[k] ? mean_I[k] / static_cast<double>(count[k]) : 0.0;
+  layout_ = zeeline::ChooseLayout(info_.wavelength_nm, mean_I, o_);  // the free function above
+}
+
+void FieldMapEngine::InitMaps(long rows, FieldMaps& maps) const {
+  maps.nx = info_.nx;
+  maps.ny = rows;
+  maps.has_transverse = has_qu_;
+  const std::size_t np = static_cast<std::size_t>(info_.nx * rows);
   maps.slots.assign(kSlotCount, std::vector<float>(np, kNaN));
   maps.method.assign(np, 0);
   maps.quality.assign(np, static_cast<std::int32_t>(kQualityMasked));
   maps.rows_done = 0;
   std::fill(std::begin(maps.method_counts), std::end(maps.method_counts), 0);
-  if (run.resume && !run.checkpoint_path.empty()) LoadCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+  maps.disambiguation.clear();
+  maps.me_iterations = 0;
+}
 
-  if (o.disambiguate && !has_qu)
-    throw FitsError(info.path + ": the STOKES axis holds " + present +
-                    "; azimuth disambiguation needs Stokes Q and U (codes 2 and 3)");
-  if (o.method == MapMethod::kMilneEddington && !has_v && !has_qu)
-    throw FitsError(info.path + ": the STOKES axis holds " + present + "; method 'me' needs Stokes V or Q and U");
-  // One inverter shared by all threads (const, thread-safe); each thread has its own workspace.
-  std::unique_ptr<MeInverter> inverter;
-  if (o.method == MapMethod::kMilneEddington || (o.method == MapMethod::kAuto && o.auto_me)) {
-    MeInversionOptions mo = o.me;
-    if (!has_qu) mo.stokes_weights[1] = mo.stokes_weights[2] = 0.0;
-    if (!has_v) mo.stokes_weights[3] = 0.0;
-    std::vector<MeLine> lines(1);
-    lines[0].wavelength_nm = o.rest_wavelength_nm;
-    lines[0].pattern = o.pattern;
-    lines.insert(lines.end(), o.extra_lines.begin(), o.extra_lines.end());
-    inverter = std::make_unique<MeInverter>(lines, mo);
+void FieldMapEngine::Compute(const CubeTile& tile, FieldMaps& maps, long first_row) const {
+  if (layout_.continuum.empty()) throw OptionError("FieldMapEngine::Compute: no spectral layout (call ChooseLayout)");
+  if (tile.y_begin < first_row || tile.y_begin + tile.y_count > first_row + maps.ny || tile.nx != maps.nx)
+    throw OptionError("FieldMapEngine::Compute: rows " + std::to_string(tile.y_begin) + ".." +
+                      std::to_string(tile.y_begin + tile.y_count - 1) + " lie outside the maps");
+  const std::size_t nw = info_.wavelength_nm.size();
+  const int threads = ResolveThreadCount(o_.threads);
+  const long npix = tile.n_pixels();
+  const long y0 = tile.y_begin - first_row;
+  std::int64_t counts[5] = {0, 0, 0, 0, 0};
+  std::int64_t me_iterations = 0;
+#pragma omp parallel num_threads(threads)
+  {
+    PixelProcessor proc(o_, layout_, has_qu_, has_v_, inverter_.get());
+    PixelOut out;
+    std::int64_t local[5] = {0, 0, 0, 0, 0};
+    std::int64_t local_iterations = 0;
+#pragma omp for schedule(dynamic, 16)
+    for (long p = 0; p < npix; ++p) {
+      PixelSpectrum s;
+      s.wavelength_nm = info_.wavelength_nm.data();
+      s.n = nw;
+      s.I = tile.Spectrum(p, si_);
+      s.Q = has_qu_ ? tile.Spectrum(p, sq_) : nullptr;
+      s.U = has_qu_ ? tile.Spectrum(p, su_) : nullptr;
+      s.V = has_v_ ? tile.Spectrum(p, sv_) : nullptr;
+      proc.Process(s, tile.nonfinite[static_cast<std::size_t>(p)] != 0, out);
+      const std::size_t g = static_cast<std::size_t>(y0 * info_.nx + p);
+      for (int k = 0; k < kSlotCount; ++k) maps.slots[static_cast<std::size_t>(k)][g] = out.v[k];
+      maps.method[g] = out.method;
+      maps.quality[g] = out.quality;
+      if (out.method >= 0 && out.method < 5) ++local[out.method];
+      local_iterations += out.me_iterations;
+    }
+#pragma omp critical
+    {
+      for (int k = 0; k < 5; ++k) counts[k] += local[k];
+      me_iterations += local_iterations;
+    }
   }
+  for (int k = 0; k < 5; ++k) maps.method_counts[k] += counts[k];
+  maps.me_iterations += me_iterations;
+}
 
-  const std::size_t nw = info.wavelength_nm.size();
+void FieldMapEngine::Finish(FieldMaps& maps) const {
+  if (o_.disambiguate)
+    DisambiguateAzimuth(maps.nx, maps.ny, maps.slots[kSlotBlos], maps.slots[kSlotBtrans], maps.slots[kSlotBtransErr],
+                        maps.slots[kSlotAzimuth], maps.disambiguation, o_.disambiguation);
+}
+
+RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const FieldMapRunOptions& run, FieldMaps& maps) {
+  const CubeInfo& info = reader.info();
+  FieldMapEngine engine(info, o);
+  engine.InitMaps(info.ny, maps);
+  if (run.resume && !run.checkpoint_path.empty()) LoadCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+
   CubeTile tile;
   const long rows_per_tile = reader.rows_per_tile();
-  SpectralLayout layout;
   const int threads = ResolveThreadCount(o.threads);
-
-  // The spectral layout always comes from the first tile, so a resumed run makes the same choices.
-  {
-    reader.ReadRows(0, std::min(rows_per_tile, info.ny), tile);
-    std::vector<double> mean_I(nw, 0.0);
-    std::vector<long> count(nw, 0);
-    for (long p = 0; p < tile.n_pixels(); ++p) {
-      if (tile.nonfinite[static_cast<std::size_t>(p)]) continue;
-      const double* I = tile.Spectrum(p, si);
-      for (std::size_t k = 0; k < nw; ++k) {
-        mean_I[k] += I[k];
-        ++count[k];
-      }
-    }
-    for (std::size_t k = 0; k < nw; ++k) mean_I[k] = count[k] ? mean_I[k] / static_cast<double>(count[k]) : 0.0;
-    layout = ChooseLayout(info.wavelength_nm, mean_I, o);
-  }
+  engine.ChooseLayout(reader);
 
   // Double buffering: the next tile is read (cfitsio + reorder) on a second thread while the estimators
   // work on the current one. At most one read is in flight, so the reader is never used concurrently.
@@ -545,7 +611,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     pending.get();  // rethrows a read error
     std::swap(tile, next_tile);
     if (run.cancel && run.cancel->load()) {
-      if (!run.checkpoint_path.empty()) SaveCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+      if (!run.checkpoint_path.empty()) SaveCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
       return RunStatus::kCancelled;
     }
     const long rows = std::min(rows_per_tile, info.ny - y0);
@@ -557,47 +623,12 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
         if (f.valid() && f.wait_for(std::chrono::seconds(0)) != std::future_status::deferred) f.wait();
       }
     } join{pending};
-    const long npix = tile.n_pixels();
-    std::int64_t counts[5] = {0, 0, 0, 0, 0};
-    std::int64_t me_iterations = 0;
-#pragma omp parallel num_threads(threads)
-    {
-      PixelProcessor proc(o, layout, has_qu, has_v, inverter.get());
-      PixelOut out;
-      std::int64_t local[5] = {0, 0, 0, 0, 0};
-      std::int64_t local_iterations = 0;
-#pragma omp for schedule(dynamic, 16)
-      for (long p = 0; p < npix; ++p) {
-        PixelSpectrum s;
-        s.wavelength_nm = info.wavelength_nm.data();
-        s.n = nw;
-        s.I = tile.Spectrum(p, si);
-        s.Q = has_qu ? tile.Spectrum(p, sq) : nullptr;
-        s.U = has_qu ? tile.Spectrum(p, su) : nullptr;
-        s.V = has_v ? tile.Spectrum(p, sv) : nullptr;
-        proc.Process(s, tile.nonfinite[static_cast<std::size_t>(p)] != 0, out);
-        const std::size_t g = static_cast<std::size_t>(y0 * info.nx + p);
-        for (int k = 0; k < kSlotCount; ++k) maps.slots[static_cast<std::size_t>(k)][g] = out.v[k];
-        maps.method[g] = out.method;
-        maps.quality[g] = out.quality;
-        if (out.method >= 0 && out.method < 5) ++local[out.method];
-        local_iterations += out.me_iterations;
-      }
-#pragma omp critical
-      {
-        for (int k = 0; k < 5; ++k) counts[k] += local[k];
-        me_iterations += local_iterations;
-      }
-    }
-    for (int k = 0; k < 5; ++k) maps.method_counts[k] += counts[k];
-    maps.me_iterations += me_iterations;
+    engine.Compute(tile, maps);
     maps.rows_done = y0 + rows;
-    if (!run.checkpoint_path.empty()) SaveCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+    if (!run.checkpoint_path.empty()) SaveCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
     if (run.progress) run.progress(maps.rows_done, info.ny);
   }
-  if (o.disambiguate)
-    DisambiguateAzimuth(maps.nx, maps.ny, maps.slots[kSlotBlos], maps.slots[kSlotBtrans], maps.slots[kSlotBtransErr],
-                        maps.slots[kSlotAzimuth], maps.disambiguation, o.disambiguation);
+  engine.Finish(maps);
   return RunStatus::kComplete;
 }
 

@@ -34,6 +34,7 @@
 #include <memory>
 #include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "zeeline/atomic/paschen_back.hpp"
@@ -123,5 +124,54 @@ enum class RunStatus { kComplete, kCancelled };
 /// read problems and for a cube that lacks what the options need (naming the file and the Stokes axis).
 RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,
                            FieldMaps& maps);
+
+// ---- The pieces of ComputeFieldMaps, for drivers that hand out tiles themselves (the MPI driver,
+// src/mpi/distributed_maps.cpp). ComputeFieldMaps is built from the same pieces, so a pixel's result does
+// not depend on how the rows were split.
+
+/// The spectral choices made once per run: fit window and continuum samples (from the first tile).
+struct SpectralLayout {
+  double window_halfwidth_nm = 0.0;
+  std::vector<std::size_t> continuum;  ///< indices into the wavelength grid
+};
+
+class FieldMapEngine {
+ public:
+  /// Validates the options against the cube: throws OptionError / FitsError like ComputeFieldMaps.
+  /// `info` and `options` are kept by reference and must outlive the engine.
+  FieldMapEngine(const CubeInfo& info, const FieldMapOptions& options);
+  ~FieldMapEngine();
+  FieldMapEngine(const FieldMapEngine&) = delete;
+  FieldMapEngine& operator=(const FieldMapEngine&) = delete;
+
+  /// The layout ComputeFieldMaps uses: from the spatially averaged I of the reader's first tile (so a
+  /// resumed or distributed run makes the same choices). Either this or set_layout before Compute.
+  void ChooseLayout(CubeReader& reader);
+  void set_layout(SpectralLayout layout) { layout_ = std::move(layout); }
+  const SpectralLayout& layout() const { return layout_; }
+
+  /// Fresh maps of rows [row_begin, row_begin + rows): NaN maps, method 0, QUALITY MASKED; nx from the
+  /// cube, ny = rows.
+  void InitMaps(long rows, FieldMaps& maps) const;
+  /// Computes every pixel of `tile` into `maps`, whose first row is cube row `first_row` (0 for maps of the
+  /// whole cube); adds to method_counts and me_iterations. OpenMP threads as FieldMapOptions::threads.
+  void Compute(const CubeTile& tile, FieldMaps& maps, long first_row = 0) const;
+  /// The steps that need the whole map, run once after every pixel is in: the azimuth disambiguation.
+  void Finish(FieldMaps& maps) const;
+
+ private:
+  const CubeInfo& info_;
+  const FieldMapOptions& o_;
+  int si_ = -1, sq_ = -1, su_ = -1, sv_ = -1;
+  bool has_qu_ = false, has_v_ = false;
+  std::unique_ptr<MeInverter> inverter_;
+  SpectralLayout layout_;
+};
+
+/// Checkpoint files of ComputeFieldMaps (rows [0, maps.rows_done) of the maps), written to a temporary
+/// file and renamed. Load returns false when the file does not exist and throws FitsError when it was made
+/// from another input or other options (fingerprint), or does not match the maps' size.
+void SaveFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& maps);
+bool LoadFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& maps);
 
 }  // namespace zeeline
