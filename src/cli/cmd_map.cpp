@@ -13,6 +13,7 @@
 #include "cli/commands.hpp"
 #include "cli/interrupt.hpp"
 #include "cli/line_selection.hpp"
+#include "cli/map_command.hpp"
 #include "zeeline/atomic/paschen_back.hpp"
 #include "cli/output_paths.hpp"
 #include "zeeline/core/errors.hpp"
@@ -25,24 +26,6 @@
 
 namespace zeeline::cli {
 namespace {
-
-struct MapArgs {
-  std::string cube, output, method = "auto", window, continuum_exclude, transverse = "corrected", core, wing_start;
-  std::string png_dir;
-  LineSelectionArgs line;
-  double noise = 0.0, weak_ratio = FieldMapOptions{}.weak_ratio, resolution_ratio = FieldMapOptions{}.resolution_ratio,
-         detection_sigma = FieldMapOptions{}.detection_sigma, transverse_detection = FieldMapOptions{}.transverse_detection,
-         shape_test_sigma = FieldMapOptions{}.consistency_sigma;
-  int threads = 0, v_sign = 1;
-  bool overwrite = false, resume = false, require_transverse = false, quiet = false;
-  // Milne-Eddington and disambiguation options.
-  std::string fix, free, bounds, stokes_weights;
-  std::vector<std::string> extra_lines;
-  int restarts = 3, max_iterations = 60, smooth_azimuth = 0;
-  double bad_chi2 = 5.0, mu = 1.0, disambig_sigma = 3.0;
-  bool disambiguate = false, no_auto_me = false;
-  std::string command_line;
-};
 
 std::vector<std::string> SplitList(const std::string& text, char sep) {
   std::vector<std::string> out;
@@ -167,49 +150,12 @@ void RunMap(const MapArgs& a) {
   }
   const SelectedLine line = ResolveLine(a.line);
 
-  CubeReadOptions read;
-  read.v_sign = a.v_sign;
-  read.threads = a.threads;  // the reorder of each tile uses the same threads as the estimators
-  const std::string bad_read = read.Validate();
-  if (!bad_read.empty()) throw OptionError(bad_read);
-  CubeReader reader(a.cube, read);
+  CubeReader reader(a.cube, MapReadOptions(a));
   const CubeInfo& info = reader.info();
 
-  FieldMapOptions o;
-  o.method = MapMethodFromString(a.method);
-  o.pattern = line.pattern;
-  std::string split_regime;  // beyond the linear regime: from the line list's term energies (docs/methods.md)
-  if (const auto mixed = ResolveMixedLine(line, a.line, RegimeArgs{})) {
-    const double bd = LinearBreakdownField_gauss(*mixed);
-    if (std::isfinite(bd)) {
-      o.mixed_splitting = std::make_shared<const SigmaSplittingTable>(*mixed);
-      o.mixed_from_gauss = 0.1 * bd;
-      char buf[200];
-      std::snprintf(buf, sizeof buf, "mixed-regime (Paschen-Back) sigma separation above %.4g G (a tenth of the "
-                    "linear breakdown field %.4g G)", o.mixed_from_gauss, bd);
-      split_regime = buf;
-    }
-  }
-  o.rest_wavelength_nm = line.rest_wavelength_nm;
-  if (line.frame && *line.frame != info.frame)
-    o.rest_wavelength_nm = ConvertWavelength_nm(line.rest_wavelength_nm, *line.frame, info.frame);
-  if (!a.window.empty()) o.window_halfwidth_nm = ParseWavelength_nm(a.window);
-  if (!a.continuum_exclude.empty()) o.continuum_exclude_nm = ParseWavelength_nm(a.continuum_exclude);
-  o.noise_rel = a.noise;
-  o.transverse = TransverseRegionFromString(a.transverse);
-  if (!a.core.empty()) o.core_halfwidth_nm = ParseWavelength_nm(a.core);
-  if (!a.wing_start.empty()) o.wing_start_nm = ParseWavelength_nm(a.wing_start);
-  o.weak_ratio = a.weak_ratio;
-  o.resolution_ratio = a.resolution_ratio;
-  o.detection_sigma = a.detection_sigma;
-  o.transverse_detection = a.transverse_detection;
-  o.consistency_sigma = a.shape_test_sigma;
-  o.need_transverse = a.require_transverse;
-  o.threads = a.threads;
-  ApplyMeOptions(a, o);
-  for (const std::string& spec : a.extra_lines) o.extra_lines.push_back(ResolveExtraLine(a, spec, info.frame));
-  const std::string bad = o.Validate();
-  if (!bad.empty()) throw OptionError(bad);
+  const MapSetup setup = MapOptionsFromArgs(a, line, info);
+  const FieldMapOptions& o = setup.options;
+  const std::string& split_regime = setup.split_regime;
 
   std::ostringstream fp;
   fp.precision(17);
@@ -254,6 +200,143 @@ void RunMap(const MapArgs& a) {
     std::exit(130);
   }
 
+  const std::vector<ImageHdu> hdus = MapHdus(maps, o);
+
+  FitsWriteOptions w;
+  w.overwrite = a.overwrite;
+  w.provenance.command_line = a.command_line;
+  w.provenance.method = a.method;
+  w.provenance.line = line.description;
+  w.provenance.input = a.cube;
+  w.provenance.history.push_back("rest wavelength used " + std::to_string(o.rest_wavelength_nm) + " nm (" +
+                                 ToString(info.frame) + ")");
+  for (const MeLine& l : o.extra_lines)
+    w.provenance.history.push_back("extra line " + std::to_string(l.wavelength_nm) + " nm, relative strength " +
+                                   std::to_string(l.relative_strength));
+  if (o.disambiguate)
+    w.provenance.history.push_back("B_AZIM disambiguated (acute angle to the potential field), range [0, 360) deg");
+  try {
+    WriteFieldMaps(a.output, hdus, info.spatial_wcs_header, w);
+  } catch (const FitsError& e) {
+    throw OutputError(e.what());  // checked up front; this is a failure while writing (exit 3)
+  }
+  if (a.resume) fs::remove(run.checkpoint_path, ec);
+  std::vector<std::string> pngs;
+  if (!a.png_dir.empty()) {
+    QuicklookOptions q;
+    q.overwrite = a.overwrite;
+    pngs = RenderQuicklooks(a.output, a.png_dir, q, a.cube);  // truth maps of a simulated cube, if any
+  }
+
+  if (!a.quiet) {
+    long flagged = 0;
+    for (auto q : maps.quality) flagged += q != 0;
+    std::printf("maps: %s (%ld x %ld pixels, %zu HDUs)\n", a.output.c_str(), maps.nx, maps.ny, hdus.size() + 1);
+    std::printf("line: %s\n", line.description.c_str());
+    if (!split_regime.empty()) std::printf("split: %s\n", split_regime.c_str());
+    std::printf("method per pixel: wfa %lld, cog %lld, split %lld, me %lld; pixels with QUALITY flags: %ld\n",
+                static_cast<long long>(maps.method_counts[1]), static_cast<long long>(maps.method_counts[2]),
+                static_cast<long long>(maps.method_counts[3]), static_cast<long long>(maps.method_counts[4]), flagged);
+    if (maps.method_counts[4] > 0 && !a.resume)  // iteration counts are not kept in checkpoints
+      std::printf("me: %.1f iterations per pixel on average\n",
+                  static_cast<double>(maps.me_iterations) / static_cast<double>(maps.method_counts[4]));
+    if (!pngs.empty()) std::printf("quicklook: %s (and %zu per-map PNGs)\n", pngs.back().c_str(), pngs.size() - 1);
+  }
+}
+
+}  // namespace
+
+void AddMapComputeOptions(CLI::App* cmd, MapArgs& a) {
+  AddLineSelectionOptions(cmd, a.line, "default: the frame of the cube's spectral axis");
+  cmd->add_option("--method", a.method, "wfa | cog | split | me | auto")->capture_default_str();
+  cmd->add_option("--window", a.window, "half-width of the fit window around the line, e.g. 0.012nm (default: from the mean line profile)");
+  cmd->add_option("--continuum-exclude", a.continuum_exclude, "continuum = samples farther than this from the line (default: the window)");
+  cmd->add_option("--noise", a.noise, "noise in units of the continuum (default: measured in the continuum)");
+  cmd->add_option("--transverse", a.transverse,
+                  "weak-field B_TRANS form: corrected (whole line, saturation-corrected) | core | wings | core+wings | whole")
+      ->capture_default_str();
+  cmd->add_option("--core", a.core, "weak-field core half-width, e.g. 0.006nm");
+  cmd->add_option("--wing-start", a.wing_start, "weak-field wing region start from line centre, e.g. 0.008nm (default 4.8 Doppler widths)");
+  cmd->add_option("--weak-ratio", a.weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w_D below this (w_D = Doppler width from the line core), docs/methods.md")->capture_default_str();
+  cmd->add_option("--resolution-ratio", a.resolution_ratio, "splitting/width above which sigma groups are resolved")->capture_default_str();
+  cmd->add_option("--detection-sigma", a.detection_sigma, "LOW_SIGNAL below this many sigma")->capture_default_str();
+  cmd->add_option("--transverse-detection", a.transverse_detection,
+                  "LOW_TRANSVERSE where the weak-field B_T^2 is below this many of its sigma")
+      ->capture_default_str();
+  cmd->add_option("--shape-test-sigma", a.shape_test_sigma,
+                  "weak-field model rejected (MODEL_MISMATCH / not weak) where its chi2 exceeds 1 by this many sigma")
+      ->capture_default_str();
+  cmd->add_option("--v-sign", a.v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
+  cmd->add_flag("--require-transverse", a.require_transverse, "refuse cubes without Stokes Q and U");
+  cmd->add_option("--threads", a.threads, "worker threads (0 = all cores)")->capture_default_str();
+  cmd->add_option("--fix", a.fix, "me: fix parameters, e.g. fill=1,damping=0.15 (fill is fixed at 1 by default)");
+  cmd->add_option("--free", a.free, "me: free parameters, e.g. fill");
+  cmd->add_option("--bounds", a.bounds, "me: bounds, e.g. b_total=0:4000,v_los=-10:10");
+  cmd->add_option("--stokes-weights", a.stokes_weights, "me: weights of I,Q,U,V in chi2, e.g. 1,4,4,2");
+  cmd->add_option("--extra-line", a.extra_lines,
+                  "me: another line of the --catalog in the window, NAME[:RELATIVE_STRENGTH] (repeatable)");
+  cmd->add_option("--restarts", a.restarts, "me: extra starts when the reduced chi2 stays above 2 (0-4)")->capture_default_str();
+  cmd->add_option("--max-iterations", a.max_iterations, "me: Levenberg-Marquardt steps per start")->capture_default_str();
+  cmd->add_option("--bad-chi2", a.bad_chi2, "me: reduced chi2 above which QUALITY gets BAD_FIT")->capture_default_str();
+  cmd->add_option("--mu", a.mu, "me: cos(heliocentric angle) of the observation")->capture_default_str();
+  cmd->add_flag("--no-auto-me", a.no_auto_me, "auto: use cog instead of me where wfa and split are invalid");
+  cmd->add_flag("--disambiguate", a.disambiguate,
+                "resolve the 180-deg azimuth ambiguity (acute angle to the potential field; B_AZIM in [0, 360), AZIM_PICK map)");
+  cmd->add_option("--smooth-azimuth", a.smooth_azimuth, "disambiguation: neighbour-consistency passes (0-20)")->capture_default_str();
+  cmd->add_option("--disambig-sigma", a.disambig_sigma, "disambiguation: B_TRANS/error below which a pixel is flagged weak")->capture_default_str();
+}
+
+CubeReadOptions MapReadOptions(const MapArgs& a) {
+  CubeReadOptions read;
+  read.v_sign = a.v_sign;
+  read.threads = a.threads;  // the reorder of each tile uses the same threads as the estimators
+  const std::string bad_read = read.Validate();
+  if (!bad_read.empty()) throw OptionError(bad_read);
+  return read;
+}
+
+MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const CubeInfo& info) {
+  MapSetup setup;
+  FieldMapOptions& o = setup.options;
+  o.method = MapMethodFromString(a.method);
+  o.pattern = line.pattern;
+  std::string& split_regime = setup.split_regime;  // beyond the linear regime: from the line list's term energies (docs/methods.md)
+  if (const auto mixed = ResolveMixedLine(line, a.line, RegimeArgs{})) {
+    const double bd = LinearBreakdownField_gauss(*mixed);
+    if (std::isfinite(bd)) {
+      o.mixed_splitting = std::make_shared<const SigmaSplittingTable>(*mixed);
+      o.mixed_from_gauss = 0.1 * bd;
+      char buf[200];
+      std::snprintf(buf, sizeof buf, "mixed-regime (Paschen-Back) sigma separation above %.4g G (a tenth of the "
+                    "linear breakdown field %.4g G)", o.mixed_from_gauss, bd);
+      split_regime = buf;
+    }
+  }
+  o.rest_wavelength_nm = line.rest_wavelength_nm;
+  if (line.frame && *line.frame != info.frame)
+    o.rest_wavelength_nm = ConvertWavelength_nm(line.rest_wavelength_nm, *line.frame, info.frame);
+  if (!a.window.empty()) o.window_halfwidth_nm = ParseWavelength_nm(a.window);
+  if (!a.continuum_exclude.empty()) o.continuum_exclude_nm = ParseWavelength_nm(a.continuum_exclude);
+  o.noise_rel = a.noise;
+  o.transverse = TransverseRegionFromString(a.transverse);
+  if (!a.core.empty()) o.core_halfwidth_nm = ParseWavelength_nm(a.core);
+  if (!a.wing_start.empty()) o.wing_start_nm = ParseWavelength_nm(a.wing_start);
+  o.weak_ratio = a.weak_ratio;
+  o.resolution_ratio = a.resolution_ratio;
+  o.detection_sigma = a.detection_sigma;
+  o.transverse_detection = a.transverse_detection;
+  o.consistency_sigma = a.shape_test_sigma;
+  o.need_transverse = a.require_transverse;
+  o.threads = a.threads;
+  ApplyMeOptions(a, o);
+  for (const std::string& spec : a.extra_lines) o.extra_lines.push_back(ResolveExtraLine(a, spec, info.frame));
+  const std::string bad = o.Validate();
+  if (!bad.empty()) throw OptionError(bad);
+
+  return setup;
+}
+
+std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {
   // Assemble the HDUs: only the maps that carry information for this cube and method.
   std::vector<ImageHdu> hdus;
   auto add = [&](int slot) {
@@ -301,49 +384,8 @@ void RunMap(const MapArgs& a) {
   }
   hdus.push_back(quality);
 
-  FitsWriteOptions w;
-  w.overwrite = a.overwrite;
-  w.provenance.command_line = a.command_line;
-  w.provenance.method = a.method;
-  w.provenance.line = line.description;
-  w.provenance.input = a.cube;
-  w.provenance.history.push_back("rest wavelength used " + std::to_string(o.rest_wavelength_nm) + " nm (" +
-                                 ToString(info.frame) + ")");
-  for (const MeLine& l : o.extra_lines)
-    w.provenance.history.push_back("extra line " + std::to_string(l.wavelength_nm) + " nm, relative strength " +
-                                   std::to_string(l.relative_strength));
-  if (o.disambiguate)
-    w.provenance.history.push_back("B_AZIM disambiguated (acute angle to the potential field), range [0, 360) deg");
-  try {
-    WriteFieldMaps(a.output, hdus, info.spatial_wcs_header, w);
-  } catch (const FitsError& e) {
-    throw OutputError(e.what());  // checked up front; this is a failure while writing (exit 3)
-  }
-  if (a.resume) fs::remove(run.checkpoint_path, ec);
-  std::vector<std::string> pngs;
-  if (!a.png_dir.empty()) {
-    QuicklookOptions q;
-    q.overwrite = a.overwrite;
-    pngs = RenderQuicklooks(a.output, a.png_dir, q, a.cube);  // truth maps of a simulated cube, if any
-  }
-
-  if (!a.quiet) {
-    long flagged = 0;
-    for (auto q : maps.quality) flagged += q != 0;
-    std::printf("maps: %s (%ld x %ld pixels, %zu HDUs)\n", a.output.c_str(), maps.nx, maps.ny, hdus.size() + 1);
-    std::printf("line: %s\n", line.description.c_str());
-    if (!split_regime.empty()) std::printf("split: %s\n", split_regime.c_str());
-    std::printf("method per pixel: wfa %lld, cog %lld, split %lld, me %lld; pixels with QUALITY flags: %ld\n",
-                static_cast<long long>(maps.method_counts[1]), static_cast<long long>(maps.method_counts[2]),
-                static_cast<long long>(maps.method_counts[3]), static_cast<long long>(maps.method_counts[4]), flagged);
-    if (maps.method_counts[4] > 0 && !a.resume)  // iteration counts are not kept in checkpoints
-      std::printf("me: %.1f iterations per pixel on average\n",
-                  static_cast<double>(maps.me_iterations) / static_cast<double>(maps.method_counts[4]));
-    if (!pngs.empty()) std::printf("quicklook: %s (and %zu per-map PNGs)\n", pngs.back().c_str(), pngs.size() - 1);
-  }
+  return hdus;
 }
-
-}  // namespace
 
 void AddMapCommand(CLI::App& app, int argc, char** argv) {
   auto a = std::make_shared<MapArgs>();
@@ -360,43 +402,7 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
       "      --extra-line FeI_6301:3 --disambiguate -o maps.fits");
   cmd->add_option("cube", a->cube, "Stokes cube (FITS; cube.fits[2] or cube.fits[EXTNAME] picks an HDU)")->required();
   cmd->add_option("-o,--output", a->output, "output map file (FITS)")->required();
-  AddLineSelectionOptions(cmd, a->line, "default: the frame of the cube's spectral axis");
-  cmd->add_option("--method", a->method, "wfa | cog | split | me | auto")->capture_default_str();
-  cmd->add_option("--window", a->window, "half-width of the fit window around the line, e.g. 0.012nm (default: from the mean line profile)");
-  cmd->add_option("--continuum-exclude", a->continuum_exclude, "continuum = samples farther than this from the line (default: the window)");
-  cmd->add_option("--noise", a->noise, "noise in units of the continuum (default: measured in the continuum)");
-  cmd->add_option("--transverse", a->transverse,
-                  "weak-field B_TRANS form: corrected (whole line, saturation-corrected) | core | wings | core+wings | whole")
-      ->capture_default_str();
-  cmd->add_option("--core", a->core, "weak-field core half-width, e.g. 0.006nm");
-  cmd->add_option("--wing-start", a->wing_start, "weak-field wing region start from line centre, e.g. 0.008nm (default 4.8 Doppler widths)");
-  cmd->add_option("--weak-ratio", a->weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w_D below this (w_D = Doppler width from the line core), docs/methods.md")->capture_default_str();
-  cmd->add_option("--resolution-ratio", a->resolution_ratio, "splitting/width above which sigma groups are resolved")->capture_default_str();
-  cmd->add_option("--detection-sigma", a->detection_sigma, "LOW_SIGNAL below this many sigma")->capture_default_str();
-  cmd->add_option("--transverse-detection", a->transverse_detection,
-                  "LOW_TRANSVERSE where the weak-field B_T^2 is below this many of its sigma")
-      ->capture_default_str();
-  cmd->add_option("--shape-test-sigma", a->shape_test_sigma,
-                  "weak-field model rejected (MODEL_MISMATCH / not weak) where its chi2 exceeds 1 by this many sigma")
-      ->capture_default_str();
-  cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
-  cmd->add_flag("--require-transverse", a->require_transverse, "refuse cubes without Stokes Q and U");
-  cmd->add_option("--threads", a->threads, "worker threads (0 = all cores)")->capture_default_str();
-  cmd->add_option("--fix", a->fix, "me: fix parameters, e.g. fill=1,damping=0.15 (fill is fixed at 1 by default)");
-  cmd->add_option("--free", a->free, "me: free parameters, e.g. fill");
-  cmd->add_option("--bounds", a->bounds, "me: bounds, e.g. b_total=0:4000,v_los=-10:10");
-  cmd->add_option("--stokes-weights", a->stokes_weights, "me: weights of I,Q,U,V in chi2, e.g. 1,4,4,2");
-  cmd->add_option("--extra-line", a->extra_lines,
-                  "me: another line of the --catalog in the window, NAME[:RELATIVE_STRENGTH] (repeatable)");
-  cmd->add_option("--restarts", a->restarts, "me: extra starts when the reduced chi2 stays above 2 (0-4)")->capture_default_str();
-  cmd->add_option("--max-iterations", a->max_iterations, "me: Levenberg-Marquardt steps per start")->capture_default_str();
-  cmd->add_option("--bad-chi2", a->bad_chi2, "me: reduced chi2 above which QUALITY gets BAD_FIT")->capture_default_str();
-  cmd->add_option("--mu", a->mu, "me: cos(heliocentric angle) of the observation")->capture_default_str();
-  cmd->add_flag("--no-auto-me", a->no_auto_me, "auto: use cog instead of me where wfa and split are invalid");
-  cmd->add_flag("--disambiguate", a->disambiguate,
-                "resolve the 180-deg azimuth ambiguity (acute angle to the potential field; B_AZIM in [0, 360), AZIM_PICK map)");
-  cmd->add_option("--smooth-azimuth", a->smooth_azimuth, "disambiguation: neighbour-consistency passes (0-20)")->capture_default_str();
-  cmd->add_option("--disambig-sigma", a->disambig_sigma, "disambiguation: B_TRANS/error below which a pixel is flagged weak")->capture_default_str();
+  AddMapComputeOptions(cmd, *a);
   cmd->add_option("--png", a->png_dir, "also write quicklook PNGs into this directory");
   cmd->add_flag("--overwrite", a->overwrite, "replace an existing output file");
   cmd->add_flag("--resume", a->resume, "keep a checkpoint (OUTPUT.checkpoint) and continue an interrupted run from it");

@@ -14,6 +14,7 @@
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
 #include "cli/line_selection.hpp"
+#include "cli/measure_command.hpp"
 #include "cli/output_paths.hpp"
 #include "synth/profile_plot.hpp"
 #include "zeeline/core/errors.hpp"
@@ -27,16 +28,6 @@
 
 namespace zeeline::cli {
 namespace {
-
-struct MeasureArgs {
-  std::string spectrum, instrument_fwhm, window, png, json_file, pixel, world;
-  RegimeArgs regime;
-  LineSelectionArgs line;
-  std::optional<double> g_eff, damping;
-  bool emission = false, absorption = false, json = false, overwrite = false;
-  int free_components = 0, realisations = 200, v_sign = 1;
-  double noise = 0.0, weak_ratio = MeasureOptions{}.weak_ratio, resolution_ratio = MeasureOptions{}.resolution_ratio;
-};
 
 const char* kSafetyNote =
     "safety: this looks like a laboratory emission line -- electromagnets (strong fields, stored energy), "
@@ -387,15 +378,48 @@ Spectrum1D ReadCubePixel(const MeasureArgs& a, const SpectrumReadOptions& ro) {
   return ReadCubePixelSpectrum(a.spectrum, x, y, ro);
 }
 
+bool BareLine(const MeasureArgs& a) {
+  return a.line.lower.empty() && a.line.upper.empty() && a.line.line.empty() && !a.line.wavelength.empty();
+}
+
 void RunMeasure(const MeasureArgs& a) {
   CheckOutputFile(a.png, a.overwrite, "--png");  // before any work (docs/cli.md, "Outputs")
   CheckOutputFile(a.json_file, a.overwrite, "--json-file");
-  if (a.emission && a.absorption) throw OptionError("--emission and --absorption exclude each other");
+  const SelectedLine line = MeasureLine(a);
 
+  SpectrumReadOptions ro;
+  ro.v_sign = a.v_sign;
+  const Spectrum1D s = (a.pixel.empty() && a.world.empty()) ? ReadSpectrum(a.spectrum, ro)
+                                                            : ReadCubePixel(a, ro);
+  const MeasureRun run = MeasureWithArgs(a, line, s);
+  const Measurement& m = run.result;
+  const bool lamp = m.sense == LineSense::kEmission;
+
+  if (!a.png.empty())
+    WriteOutputAtomically(a.png, a.overwrite, [&](const std::string& tmp) { WritePng(tmp, s, line, m); });
+  if (!a.json_file.empty())
+    WriteOutputAtomically(a.json_file, a.overwrite, [&](const std::string& tmp) {
+      std::ofstream f(tmp);
+      if (f) WriteMeasureJson(f, s, line, run);
+      if (!f) throw OutputError(a.json_file + ": cannot write");
+    });
+  if (a.json) {
+    WriteMeasureJson(std::cout, s, line, run);
+    if (lamp) std::fprintf(stderr, "%s\n", kSafetyNote);
+    return;
+  }
+  for (const std::string& l : Summary(s, line, m)) std::printf("%s\n", l.c_str());
+  if (!a.png.empty()) std::printf("\npicture: %s\n", a.png.c_str());
+  if (lamp) std::printf("\n%s\n", kSafetyNote);
+}
+
+}  // namespace
+
+SelectedLine MeasureLine(const MeasureArgs& a) {
+  if (a.emission && a.absorption) throw OptionError("--emission and --absorption exclude each other");
   // The line: levels (or a catalog entry), or a bare wavelength with --g-eff for free components.
   SelectedLine line;
-  const bool bare = a.line.lower.empty() && a.line.upper.empty() && a.line.line.empty() && !a.line.wavelength.empty();
-  if (bare) {
+  if (BareLine(a)) {
     if (!a.g_eff) throw OptionError("give the line's levels (--lower/--upper) or, with --free-components, --g-eff");
     if (a.free_components == 0)
       throw OptionError("without --lower/--upper the Zeeman pattern is unknown: add --free-components N");
@@ -409,12 +433,11 @@ void RunMeasure(const MeasureArgs& a) {
     line = ResolveLine(a.line);
     if (a.g_eff) throw OptionError("--g-eff is only for lines given by --wavelength alone (the levels fix g_eff)");
   }
+  return line;
+}
 
-  SpectrumReadOptions ro;
-  ro.v_sign = a.v_sign;
-  const Spectrum1D s = (a.pixel.empty() && a.world.empty()) ? ReadSpectrum(a.spectrum, ro)
-                                                            : ReadCubePixel(a, ro);
-
+MeasureRun MeasureWithArgs(const MeasureArgs& a, const SelectedLine& line, const Spectrum1D& s) {
+  const bool bare = BareLine(a);
   MeasureOptions o;
   o.rest_wavelength_nm = line.rest_wavelength_nm;
   if (line.frame && s.frame && *line.frame != *s.frame)
@@ -436,29 +459,39 @@ void RunMeasure(const MeasureArgs& a) {
   if (!bare) o.mixed_line = ResolveMixedLine(line, a.line, a.regime);
   const std::string bad = o.Validate();
   if (!bad.empty()) throw OptionError(bad);
-
-  const Measurement m = MeasureSpectrum(s, o);
-  const bool lamp = m.sense == LineSense::kEmission;
-
-  if (!a.png.empty())
-    WriteOutputAtomically(a.png, a.overwrite, [&](const std::string& tmp) { WritePng(tmp, s, line, m); });
-  if (!a.json_file.empty())
-    WriteOutputAtomically(a.json_file, a.overwrite, [&](const std::string& tmp) {
-      std::ofstream f(tmp);
-      if (f) WriteJson(f, s, line, o, m);
-      if (!f) throw OutputError(a.json_file + ": cannot write");
-    });
-  if (a.json) {
-    WriteJson(std::cout, s, line, o, m);
-    if (lamp) std::fprintf(stderr, "%s\n", kSafetyNote);
-    return;
-  }
-  for (const std::string& l : Summary(s, line, m)) std::printf("%s\n", l.c_str());
-  if (!a.png.empty()) std::printf("\npicture: %s\n", a.png.c_str());
-  if (lamp) std::printf("\n%s\n", kSafetyNote);
+  return {o, MeasureSpectrum(s, o)};
 }
 
-}  // namespace
+void WriteMeasureJson(std::ostream& out, const Spectrum1D& s, const SelectedLine& line, const MeasureRun& run) {
+  WriteJson(out, s, line, run.options, run.result);
+}
+
+void AddMeasureOptions(CLI::App* cmd, MeasureArgs& a) {
+  cmd->add_option("--pixel", a.pixel, "X,Y: measure this pixel of a Stokes cube (1-based, like FITS)");
+  cmd->add_option("--world", a.world,
+                  "LON,LAT: measure the cube pixel nearest these world coordinates of its spatial WCS "
+                  "(angles in arcsec unless given with arcmin or deg)");
+  AddLineSelectionOptions(cmd, a.line, "default: the frame of the spectrum (FITS CTYPE1), tables have none");
+  cmd->add_option("--g-eff", a.g_eff, "effective Lande factor for a line given by --wavelength alone (with --free-components)");
+  cmd->add_flag("--emission", a.emission, "the line is an emission line (default: detected)");
+  cmd->add_flag("--absorption", a.absorption, "the line is an absorption line (default: detected)");
+  cmd->add_option("--free-components", a.free_components,
+                  "fit N free Voigt components instead of the Zeeman pattern (0 = pattern)")->capture_default_str();
+  cmd->add_option("--instrument-fwhm", a.instrument_fwhm, "Gaussian instrument profile FWHM, e.g. 2.5pm (default 0)");
+  cmd->add_option("--damping", a.damping, "keep the Voigt damping fixed at this value (Doppler units; default: fitted)");
+  cmd->add_option("--window", a.window, "half-width of the line window, e.g. 0.05nm (default: from the line)");
+  cmd->add_option("--noise", a.noise, "noise in units of the continuum (default: measured outside the window)");
+  cmd->add_option("--weak-ratio", a.weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w below this (w = 1/e half-width of the line), docs/methods.md")->capture_default_str();
+  cmd->add_option("--resolution-ratio", a.resolution_ratio,
+                  "sigma separation / component FWHM above which the components count as resolved")->capture_default_str();
+  cmd->add_option("--realisations", a.realisations, "noise realisations for the characteristics' errors")->capture_default_str();
+  AddRegimeOptions(cmd, a.regime);
+  cmd->add_option("--v-sign", a.v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
+  cmd->add_flag("--json", a.json, "print the results as one JSON object (keys in docs/measure.md)");
+  cmd->add_option("--json-file", a.json_file, "also write the JSON object to this file");
+  cmd->add_option("--png", a.png, "draw I, Q, U, V with the fitted components and the estimates into this PNG");
+  cmd->add_flag("--overwrite", a.overwrite, "replace existing --png / --json-file outputs");
+}
 
 void AddMeasureCommand(CLI::App& app) {
   auto a = std::make_shared<MeasureArgs>();
@@ -475,30 +508,7 @@ void AddMeasureCommand(CLI::App& app) {
       "  zeeline measure lamp.txt --wavelength 643.847nm --g-eff 1 --free-components 3\n"
       "  zeeline measure demo_maps/bipolar_region.fits --pixel 15,22 --line FeI_6302 --catalog demo_maps/lines.csv");
   cmd->add_option("spectrum", a->spectrum, "spectrum table or FITS file, or a Stokes cube with --pixel/--world")->required();
-  cmd->add_option("--pixel", a->pixel, "X,Y: measure this pixel of a Stokes cube (1-based, like FITS)");
-  cmd->add_option("--world", a->world,
-                  "LON,LAT: measure the cube pixel nearest these world coordinates of its spatial WCS "
-                  "(angles in arcsec unless given with arcmin or deg)");
-  AddLineSelectionOptions(cmd, a->line, "default: the frame of the spectrum (FITS CTYPE1), tables have none");
-  cmd->add_option("--g-eff", a->g_eff, "effective Lande factor for a line given by --wavelength alone (with --free-components)");
-  cmd->add_flag("--emission", a->emission, "the line is an emission line (default: detected)");
-  cmd->add_flag("--absorption", a->absorption, "the line is an absorption line (default: detected)");
-  cmd->add_option("--free-components", a->free_components,
-                  "fit N free Voigt components instead of the Zeeman pattern (0 = pattern)")->capture_default_str();
-  cmd->add_option("--instrument-fwhm", a->instrument_fwhm, "Gaussian instrument profile FWHM, e.g. 2.5pm (default 0)");
-  cmd->add_option("--damping", a->damping, "keep the Voigt damping fixed at this value (Doppler units; default: fitted)");
-  cmd->add_option("--window", a->window, "half-width of the line window, e.g. 0.05nm (default: from the line)");
-  cmd->add_option("--noise", a->noise, "noise in units of the continuum (default: measured outside the window)");
-  cmd->add_option("--weak-ratio", a->weak_ratio, "weak-field regime: r = g_eff*dlambda_B/w below this (w = 1/e half-width of the line), docs/methods.md")->capture_default_str();
-  cmd->add_option("--resolution-ratio", a->resolution_ratio,
-                  "sigma separation / component FWHM above which the components count as resolved")->capture_default_str();
-  cmd->add_option("--realisations", a->realisations, "noise realisations for the characteristics' errors")->capture_default_str();
-  AddRegimeOptions(cmd, a->regime);
-  cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
-  cmd->add_flag("--json", a->json, "print the results as one JSON object (keys in docs/measure.md)");
-  cmd->add_option("--json-file", a->json_file, "also write the JSON object to this file");
-  cmd->add_option("--png", a->png, "draw I, Q, U, V with the fitted components and the estimates into this PNG");
-  cmd->add_flag("--overwrite", a->overwrite, "replace existing --png / --json-file outputs");
+  AddMeasureOptions(cmd, *a);
   cmd->callback([a] { RunMeasure(*a); });
 }
 

@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <cstring>
 
 namespace zeeline::cli {
 
@@ -74,6 +75,8 @@ JsonWriter& JsonWriter::Value(double v) {
     char buf[32];
     std::snprintf(buf, sizeof buf, "%.17g", v);
     out_ << buf;
+    // A real number stays one for JSON readers that tell 1200 from 1200.0 (Python's json, the module).
+    if (std::strpbrk(buf, ".eE") == nullptr) out_ << ".0";
   }
   return *this;
 }

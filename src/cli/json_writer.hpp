@@ -1,5 +1,6 @@
 // json_writer.hpp (CLI-private) -- a tiny streaming JSON writer for the --json outputs.
-// Numbers are written with 17 significant digits (round-trip exact); NaN and infinities become null.
+// Numbers are written with 17 significant digits (round-trip exact), a real number always with a decimal
+// point or exponent (1200.0, not 1200; integers come from Value(long long)); NaN and infinities become null.
 #pragma once
 
 #include <ostream>

@@ -1,0 +1,73 @@
+"""info, broadening and calibrate functions of the Python module: the same result as the CLI's --json on the
+bundled demo inputs (docs/broadening.md, docs/polarimetry.md)."""
+import pytest
+
+import zeeline
+from conftest import CUBE, DEMO, LINES, assert_same_as_json, cli_error, cli_json
+
+PLASMA = f"{DEMO}/plasma_lines.csv"
+CAL = f"{DEMO}/calibration"
+
+
+def test_info_equals_the_cli():
+    assert_same_as_json(zeeline.info(CUBE), cli_json("info", CUBE))
+    assert_same_as_json(zeeline.info(CUBE, frame="vacuum", no_scan=True),
+                        cli_json("info", CUBE, "--frame", "vacuum", "--no-scan"))
+
+
+def test_broadening_budget_equals_the_cli():
+    args = dict(wavelength="667.8151nm", mass=4.0026, temperature="1eV", instrument_fwhm="3pm", field="0.45T",
+                lower="1P1", upper="1D2")
+    reference = cli_json("broadening", "budget", "--wavelength", "667.8151nm", "--mass", "4.0026", "--temperature",
+                         "1eV", "--instrument-fwhm", "3pm", "--field", "0.45T", "--lower", "1P1", "--upper", "1D2")
+    assert_same_as_json(zeeline.broadening_budget(**args), reference)
+
+
+def test_broadening_inglis_teller_equals_the_cli():
+    assert_same_as_json(zeeline.broadening_inglis_teller(last_resolved=12),
+                        cli_json("broadening", "inglis-teller", "--last-resolved", "12"))
+
+
+def test_broadening_diagnose_equals_the_cli():
+    spectrum = f"{DEMO}/spectra/he_column_magnetised.txt"
+    reference = cli_json("broadening", "diagnose", spectrum, "--catalog", PLASMA, "--instrument-fwhm", "3pm")
+    assert_same_as_json(zeeline.broadening_diagnose(spectrum, catalog=PLASMA, instrument_fwhm="3pm"), reference)
+
+
+def test_calibrate_modulation_equals_the_cli():
+    table = f"{CAL}/bench_sequence.csv"
+    reference = cli_json("calibrate", "modulation", table, "--gain", "2.1", "--read-noise", "6")
+    assert_same_as_json(zeeline.calibrate_modulation(table, gain=2.1, read_noise=6), reference)
+
+
+def test_calibrate_crosstalk_equals_the_cli():
+    cube = f"{CAL}/crosstalk_scan.fits"
+    assert_same_as_json(zeeline.calibrate_crosstalk(cube), cli_json("calibrate", "crosstalk", cube))
+
+
+def test_calibrate_magnet_equals_the_cli():
+    spectra = [f"{CAL}/cd_long.csv:0,0", f"{CAL}/cd_trans.csv:90,0"]
+    reference = cli_json("calibrate", "magnet", "--spectrum", spectra[0], "--spectrum", spectra[1], "--line",
+                         "CdI_6438", "--catalog", LINES, "--field", "10kG", "--instrument-fwhm", "2pm", "--damping",
+                         "0.02")
+    result = zeeline.calibrate_magnet(spectrum=spectra, line="CdI_6438", catalog=LINES, field="10kG",
+                                      instrument_fwhm="2pm", damping=0.02)
+    assert_same_as_json(result, reference)
+
+
+def test_calibration_errors_carry_the_cli_messages(tmp):
+    message = cli_error("calibrate", "modulation", "/nonexistent/sequence.csv", expect_code=1)
+    with pytest.raises(OSError) as e:
+        zeeline.calibrate_modulation("/nonexistent/sequence.csv")
+    assert str(e.value) == message
+    message = cli_error("broadening", "budget", "--wavelength", "656nm", "--mass", "1", "--temperature", "-5K",
+                        expect_code=2)
+    with pytest.raises(ValueError) as e:
+        zeeline.broadening_budget(wavelength="656nm", mass=1, temperature="-5K")
+    assert str(e.value) == message
+
+
+def test_docstrings_carry_the_command_options():
+    assert "--doppler-width" in zeeline.profile.__doc__
+    assert "--extra-line" in zeeline.map.__doc__
+    assert zeeline.__version__
