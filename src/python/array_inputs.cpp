@@ -144,7 +144,7 @@ TemporaryCubeFile::TemporaryCubeFile(const py::handle& cube, const py::handle& w
                             "': the planes must be in the order I, Q, U, V with equal steps (IQUV, IV, QUV, V, ...)");
 
   // The values as a C-ordered array (x fastest = NAXIS1): float32 kept as is, the rest as float64.
-  const bool single = any.dtype().is(py::dtype::of<float>());
+  const bool single = any.dtype().kind() == 'f' && any.dtype().itemsize() == 4;  // any byte order
   py::array data;
   if (single) {
     data = py::array_t<float, py::array::c_style>::ensure(cube);

@@ -38,8 +38,8 @@ if(WITH_PYTHON)
   if(NOT EXISTS ${site}/zeeline.pyi)
     message(FATAL_ERROR "no type stubs next to ${module}")
   endif()
-  run("import the installed module" ${CMAKE_COMMAND} -E env PYTHONPATH=${site} ${PYTHON} -c
-      "import zeeline; print(zeeline.__file__); print(repr(zeeline.lande('2P3/2', gs=2)))")
+  run("import the installed module" ${CMAKE_COMMAND} -E env PYTHONPATH=${site} ${PYTHON}
+      ${SOURCE_DIR}/tests/install/import_check.py)
   if(NOT out MATCHES "^${site}/zeeline[^\n]*\n1\\.333333333333333")
     message(FATAL_ERROR "installed module: ${out}")
   endif()
