@@ -4,6 +4,7 @@
 #include <cstdio>
 #include <iostream>
 #include <ios>
+#include <mutex>
 #include <sstream>
 
 #include <pybind11/numpy.h>
@@ -136,6 +137,9 @@ void ParseTokens(CLI::App& app, const std::vector<std::string>& tokens) {
 }
 
 std::string RunCapturingStdout(CLI::App& app, const std::vector<std::string>& tokens) {
+  py::gil_scoped_release release;  // the command runs without Python objects; other threads may go on
+  static std::mutex one_capture_at_a_time;
+  const std::lock_guard<std::mutex> lock(one_capture_at_a_time);
   StdoutCapture capture;
   ParseTokens(app, tokens);
   return capture.text();

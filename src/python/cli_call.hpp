@@ -20,8 +20,8 @@ std::vector<std::string> OptionTokens(const pybind11::kwargs& kwargs);
 std::string PathText(const pybind11::handle& value, const char* what);
 
 /// Parses `tokens` (after the program name) with `app`, which runs the command's callback; returns what
-/// the command printed on standard output. Must be called with the GIL held (the capture of std::cout is
-/// process-wide; holding the GIL keeps two Python threads from capturing at once).
+/// the command printed on standard output. Called with the GIL held; releases it while the command runs
+/// (the capture of std::cout is process-wide, so one command at a time is captured, under a mutex).
 std::string RunCapturingStdout(CLI::App& app, const std::vector<std::string>& tokens);
 
 /// Parses `tokens` into the options registered on `app` (its callback, if any, runs too).

@@ -247,7 +247,7 @@ PYBIND11_MODULE(zeeline, m) {
             "`zeeline measure --json` (the same keys). The first argument may instead be a spectrum file or a "
             "cube with pixel='X,Y'.",
             cli::AddMeasureCommand, {"measure"}));
-  m.def("map", &Map, py::arg("cube"), py::arg("wavelength_nm") = py::none(), py::arg("stokes") = "IQUV",
+  m.def("map", &Map, py::arg("cube"), py::arg("wavelength_nm") = py::none(), py::kw_only(), py::arg("stokes") = "IQUV",
         py::arg("cube_frame") = py::none(),
         Doc("map(cube, wavelength_nm=None, stokes='IQUV', cube_frame=None, lower=, upper=, wavelength=, "
             "method='auto', **options) -> dict of 2-D arrays (y, x) named like the map file's extensions "

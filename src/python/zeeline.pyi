@@ -106,9 +106,9 @@ def measure(
 def map(
     cube: Union[_Path, _Array],
     wavelength_nm: Optional[_Array] = ...,
+    *,
     stokes: str = ...,
     cube_frame: Optional[str] = ...,
-    *,
     lower: Optional[str] = ...,
     upper: Optional[str] = ...,
     wavelength: Optional[_Value] = ...,

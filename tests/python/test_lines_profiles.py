@@ -116,3 +116,14 @@ def test_missing_catalog_is_an_os_error_with_the_cli_message():
     with pytest.raises(OSError) as e:
         zeeline.line(catalog="/nonexistent/lines.csv")
     assert str(e.value) == message
+
+
+def test_commands_called_from_several_threads_each_get_their_own_result():
+    from concurrent.futures import ThreadPoolExecutor
+    fields = [f"{100 * k}G" for k in range(1, 13)]
+    sequential = [zeeline.profile(**FE_6302, field=f, inclination=45) for f in fields]
+    with ThreadPoolExecutor(max_workers=4) as pool:
+        parallel = list(pool.map(lambda f: zeeline.profile(**FE_6302, field=f, inclination=45), fields))
+    for a, b in zip(sequential, parallel):
+        assert a["field_gauss"] == b["field_gauss"]
+        assert np.array_equal(a["V"], b["V"]) and np.array_equal(a["Q"], b["Q"])
