@@ -14,6 +14,7 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/notices.hpp"
 #include "io/atomic_file.hpp"
 #include "synth/bar_chart.hpp"
 #include "synth/profile_plot.hpp"
@@ -197,7 +198,7 @@ void RunBudget(const BudgetArgs& a) {
   if (!a.png.empty()) WriteBudgetPng(a.png, a.overwrite, b);
   if (a.json) {
     WriteBudgetJson(std::cout, o, b);
-    std::fprintf(stderr, "%s\n", kLabSafety);
+    Notice(kLabSafety);
     return;
   }
   for (const std::string& l : BudgetText(b)) std::printf("%s\n", l.c_str());
@@ -576,7 +577,7 @@ void RunDiagnose(const DiagnoseArgs& a) {
   if (!pngs.empty()) WriteDiagnosePngs(pngs, a.overwrite, s, o, d, WrapText(text, 50));
   if (a.json) {
     WriteDiagnoseJson(std::cout, s, species, o, d);
-    std::fprintf(stderr, "%s\n", kLabSafety);
+    Notice(kLabSafety);
     return;
   }
   for (const std::string& l : text) std::printf("%s\n", l.c_str());

@@ -12,6 +12,7 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/notices.hpp"
 #include "cli/line_selection.hpp"
 #include "cli/output_paths.hpp"
 #include "synth/profile_plot.hpp"
@@ -537,7 +538,7 @@ void RunMagnet(const MagnetArgs& a) {
     j.Key("safety").Value(kMagnetSafety);
     j.EndObject();
     std::cout << "\n";
-    std::fprintf(stderr, "%s\n", kMagnetSafety);
+    Notice(kMagnetSafety);
     return;
   }
   std::printf("%s\n\n", kMagnetSafety);

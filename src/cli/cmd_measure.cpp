@@ -13,6 +13,7 @@
 
 #include "cli/commands.hpp"
 #include "cli/json_writer.hpp"
+#include "cli/notices.hpp"
 #include "cli/line_selection.hpp"
 #include "cli/measure_command.hpp"
 #include "cli/output_paths.hpp"
@@ -405,7 +406,7 @@ void RunMeasure(const MeasureArgs& a) {
     });
   if (a.json) {
     WriteMeasureJson(std::cout, s, line, run);
-    if (lamp) std::fprintf(stderr, "%s\n", kSafetyNote);
+    NoticeMeasureSafety(run);
     return;
   }
   for (const std::string& l : Summary(s, line, m)) std::printf("%s\n", l.c_str());
@@ -460,6 +461,10 @@ MeasureRun MeasureWithArgs(const MeasureArgs& a, const SelectedLine& line, const
   const std::string bad = o.Validate();
   if (!bad.empty()) throw OptionError(bad);
   return {o, MeasureSpectrum(s, o)};
+}
+
+void NoticeMeasureSafety(const MeasureRun& run) {
+  if (run.result.sense == LineSense::kEmission) Notice(kSafetyNote);
 }
 
 void WriteMeasureJson(std::ostream& out, const Spectrum1D& s, const SelectedLine& line, const MeasureRun& run) {

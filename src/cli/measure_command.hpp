@@ -39,6 +39,9 @@ struct MeasureRun {
 /// The measurement of `s` (read and V-sign corrected) for the line from MeasureLine.
 MeasureRun MeasureWithArgs(const MeasureArgs& a, const SelectedLine& line, const Spectrum1D& s);
 
+/// The lab-safety note for an emission (lamp) line through Notice() (cli/notices.hpp); nothing otherwise.
+void NoticeMeasureSafety(const MeasureRun& run);
+
 /// The JSON object `measure --json` prints.
 void WriteMeasureJson(std::ostream& out, const Spectrum1D& s, const SelectedLine& line, const MeasureRun& run);
 

@@ -18,6 +18,7 @@
 #include "cli/commands.hpp"
 #include "cli/map_command.hpp"
 #include "cli/measure_command.hpp"
+#include "cli/notices.hpp"
 #include "python/array_inputs.hpp"
 #include "python/cli_call.hpp"
 #include "zeeline/core/errors.hpp"
@@ -38,6 +39,12 @@ void RefuseKeywords(const py::kwargs& kwargs, const std::vector<std::string>& na
     if (kwargs.contains(n)) throw py::value_error(n + ": not available here (" + why + ")");
 }
 
+// The cautions a command gave (lab safety) as Python warnings, where notebooks show them.
+void Warn(const cli::NoticeCollector& notices) {
+  for (const auto& n : notices.notices())
+    if (PyErr_WarnEx(PyExc_UserWarning, n.c_str(), 2) != 0) throw py::error_already_set();
+}
+
 bool IsPath(const py::handle& v) { return py::isinstance<py::str>(v) || py::hasattr(v, "__fspath__"); }
 
 // Runs `zeeline <command...> --json [options] -- [positionals]` in-process; the JSON as Python objects.
@@ -53,7 +60,9 @@ py::object RunJsonCommand(const AddCommand& add, const std::vector<std::string>&
     tokens.push_back("--");
     for (const auto& p : positionals) tokens.push_back(p);
   }
+  cli::NoticeCollector notices;  // lab-safety notes become Python warnings
   const std::string text = RunCapturingStdout(app, tokens);
+  Warn(notices);
   return JsonToPython(text);
 }
 
@@ -92,6 +101,7 @@ py::object Measure(const py::object& spectrum, const py::object& I, const py::ob
   ParseTokens(app, OptionTokens(kwargs));
   Spectrum1D s = SpectrumFromArrays(spectrum, I, Q, U, V);
   std::ostringstream json;
+  cli::NoticeCollector notices;
   {
     py::gil_scoped_release release;
     const cli::SelectedLine line = cli::MeasureLine(args);
@@ -101,8 +111,11 @@ py::object Measure(const py::object& spectrum, const py::object& I, const py::ob
     if (!bad.empty()) throw OptionError(bad);
     if (ro.v_sign == -1)
       for (double& v : s.V) v = -v;
-    cli::WriteMeasureJson(json, s, line, cli::MeasureWithArgs(args, line, s));
+    const cli::MeasureRun run = cli::MeasureWithArgs(args, line, s);
+    cli::NoticeMeasureSafety(run);
+    cli::WriteMeasureJson(json, s, line, run);
   }
+  Warn(notices);
   return JsonToPython(json.str());
 }
 

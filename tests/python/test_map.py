@@ -160,3 +160,14 @@ def test_the_gil_is_released_while_the_maps_are_computed():
     # With the GIL held the thread could not run at all between start and end.
     assert end - start > 0.05, "map() too quick to tell"
     assert inside and inside[-1] - inside[0] > 0.5 * (end - start), (len(inside), end - start)
+
+
+def test_quality_names_match_the_qbit_keywords_of_the_cli_map_file(tmp):
+    run_cli("map", CUBE, "--line", "FeI_6302", "--catalog", LINES, "-o", tmp / "m.fits", "-q", "--method", "wfa")
+    header = fits.getheader(tmp / "m.fits", "QUALITY")
+    bits = {int(k[4:]): v for k, v in header.items() if k.startswith("QBIT")}
+    assert bits, "the map file names its QUALITY bits"
+    for bit, name in bits.items():
+        assert zeeline.quality_names(1 << bit) == [name]
+    assert zeeline.quality_names(0) == []
+    assert zeeline.quality_names(1 | 2) == [bits[0], bits[1]]

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 import zeeline
-from conftest import CUBE, DEMO, LINES, assert_identical, assert_same_as_json, cli_error, cli_json
+from conftest import CUBE, DEMO, LINES, assert_identical, assert_same_as_json, cli_error, cli_json, run_cli
 
 CD_LAMP = f"{DEMO}/spectra/cd_lamp_1T.txt"
 CD_LINE = dict(line="CdI_6438", catalog=LINES, instrument_fwhm="2pm")
@@ -38,6 +38,7 @@ def _synthetic_umbra():
     return p["wavelength_nm"], noisy
 
 
+@pytest.mark.filterwarnings("ignore:safety:UserWarning")  # a lamp line (see the last test)
 def test_measure_of_a_file_is_identical_to_the_cli():
     reference = cli_json("measure", CD_LAMP, "--line", "CdI_6438", "--catalog", LINES, "--instrument-fwhm", "2pm")
     assert_same_as_json(zeeline.measure(CD_LAMP, **CD_LINE), reference)
@@ -122,3 +123,17 @@ def test_a_missing_spectrum_file_is_an_os_error_with_the_cli_message():
     with pytest.raises(OSError) as e:
         zeeline.measure("/nonexistent/spectrum.txt", line="FeI_6302", catalog=LINES)
     assert str(e.value) == message
+
+
+def test_the_lab_safety_note_of_a_lamp_line_becomes_a_warning(tmp):
+    _, err = run_cli("measure", CD_LAMP, "--line", "CdI_6438", "--catalog", LINES, "--instrument-fwhm", "2pm", "--json")
+    note = [l for l in err.splitlines() if l.startswith("safety:")]
+    assert len(note) == 1
+    with pytest.warns(UserWarning) as caught:
+        zeeline.measure(CD_LAMP, **CD_LINE)
+    assert [str(w.message) for w in caught] == note
+    # The same spectrum as arrays gives the same note.
+    table = np.loadtxt(CD_LAMP, skiprows=3)
+    with pytest.warns(UserWarning) as caught:
+        zeeline.measure(*table.T, **CD_LINE)
+    assert [str(w.message) for w in caught] == note

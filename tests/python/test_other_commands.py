@@ -3,7 +3,10 @@ bundled demo inputs (docs/broadening.md, docs/polarimetry.md)."""
 import pytest
 
 import zeeline
-from conftest import CUBE, DEMO, LINES, assert_same_as_json, cli_error, cli_json
+from conftest import CUBE, DEMO, LINES, assert_same_as_json, cli_error, cli_json, run_cli
+
+# The lab-safety notes of these commands come as UserWarnings (checked in test_safety_notes_are_warnings).
+pytestmark = pytest.mark.filterwarnings("ignore:safety:UserWarning")
 
 PLASMA = f"{DEMO}/plasma_lines.csv"
 CAL = f"{DEMO}/calibration"
@@ -71,3 +74,14 @@ def test_docstrings_carry_the_command_options():
     assert "--doppler-width" in zeeline.profile.__doc__
     assert "--extra-line" in zeeline.map.__doc__
     assert zeeline.__version__
+
+
+@pytest.mark.filterwarnings("default")
+def test_safety_notes_are_warnings_with_the_cli_text():
+    _, err = run_cli("broadening", "budget", "--wavelength", "656.28nm", "--mass", "1.008", "--temperature", "1eV",
+                     "--json")
+    note = [l for l in err.splitlines() if l.startswith("safety:")]
+    assert len(note) == 1
+    with pytest.warns(UserWarning) as caught:
+        zeeline.broadening_budget(wavelength="656.28nm", mass=1.008, temperature="1eV")
+    assert [str(w.message) for w in caught] == note
