@@ -119,6 +119,37 @@ py::object Measure(const py::object& spectrum, const py::object& I, const py::ob
   return JsonToPython(json.str());
 }
 
+// ---- map and calibrate crosstalk of arrays ------------------------------------------------------------
+// A problem of the cube read from a TemporaryCubeFile: ValueError naming the array, not the file.
+[[noreturn]] void ThrowForArray(const FitsError& e, const std::string& path) {
+  std::string message = e.what();
+  for (auto at = message.find(path); at != std::string::npos; at = message.find(path))
+    message.replace(at, path.size(), "(numpy cube)");
+  throw py::value_error(message);
+}
+
+WavelengthFrame FrameOf(const py::object& cube_frame, WavelengthFrame otherwise) {
+  return cube_frame.is_none() ? otherwise : WavelengthFrameFromString(cube_frame.cast<std::string>());
+}
+
+py::object CalibrateCrosstalk(const py::object& cube, const py::object& wavelength_nm, const std::string& stokes,
+                              const py::object& cube_frame, const py::kwargs& kwargs) {
+  const AddCommand add = cli::AddCalibrateCommand;
+  if (IsPath(cube)) {
+    if (!wavelength_nm.is_none() || !cube_frame.is_none())
+      throw py::value_error("wavelength_nm and cube_frame are for array cubes; a FITS cube carries its own axes");
+    return RunJsonCommand(add, {"calibrate", "crosstalk"}, kwargs, {PathText(cube, "cube")});
+  }
+  const TemporaryCubeFile temporary(cube, wavelength_nm, stokes, FrameOf(cube_frame, WavelengthFrame::kVacuum));
+  try {
+    py::object result = RunJsonCommand(add, {"calibrate", "crosstalk"}, kwargs, {temporary.path()});
+    result["input"] = py::str("(numpy cube)");
+    return result;
+  } catch (const FitsError& e) {
+    ThrowForArray(e, temporary.path());
+  }
+}
+
 // ---- map -----------------------------------------------------------------------------------------------
 py::array MapArray(const ImageHdu& h, long nx, long ny) {
   const std::vector<py::ssize_t> shape{static_cast<py::ssize_t>(ny), static_cast<py::ssize_t>(nx)};
@@ -158,9 +189,7 @@ py::dict Map(const py::object& cube, const py::object& wavelength_nm, const std:
     path = PathText(cube, "cube");
   } else {
     // No frame stated: the data are taken to be in the line's frame (no conversion), else vacuum.
-    const WavelengthFrame frame = !cube_frame.is_none() ? WavelengthFrameFromString(cube_frame.cast<std::string>())
-                                  : line.frame                ? *line.frame
-                                                              : WavelengthFrame::kVacuum;
+    const WavelengthFrame frame = FrameOf(cube_frame, line.frame ? *line.frame : WavelengthFrame::kVacuum);
     temporary = std::make_unique<TemporaryCubeFile>(cube, wavelength_nm, stokes, frame);
     path = temporary->path();
   }
@@ -187,10 +216,7 @@ py::dict Map(const py::object& cube, const py::object& wavelength_nm, const std:
       hdus = cli::MapHdus(maps, setup.options);
   } catch (const FitsError& e) {
     if (from_file) throw;
-    std::string message = e.what();  // name the array, not the temporary file
-    for (auto at = message.find(path); at != std::string::npos; at = message.find(path))
-      message.replace(at, path.size(), "(numpy cube)");
-    throw py::value_error(message);
+    ThrowForArray(e, path);
   }
   if (interrupted) {
     PyErr_SetNone(PyExc_KeyboardInterrupt);
@@ -307,14 +333,13 @@ PYBIND11_MODULE(zeeline, m) {
       py::arg("table"),
       Doc("calibrate_modulation(table, ...) -> dict: `zeeline calibrate modulation --json`.",
           cli::AddCalibrateCommand, {"calibrate", "modulation"}));
-  m.def(
-      "calibrate_crosstalk",
-      [](const py::object& cube, const py::kwargs& kw) {
-        return RunJsonCommand(cli::AddCalibrateCommand, {"calibrate", "crosstalk"}, kw, {PathText(cube, "cube")});
-      },
-      py::arg("cube"),
-      Doc("calibrate_crosstalk(cube, correct=False, output=None, ...) -> dict: `zeeline calibrate crosstalk --json`.",
-          cli::AddCalibrateCommand, {"calibrate", "crosstalk"}));
+  m.def("calibrate_crosstalk", &CalibrateCrosstalk, py::arg("cube"), py::arg("wavelength_nm") = py::none(),
+        py::kw_only(), py::arg("stokes") = "IQUV", py::arg("cube_frame") = py::none(),
+        Doc("calibrate_crosstalk(cube, wavelength_nm=None, stokes='IQUV', cube_frame=None, correct=False, "
+            "output=None, ...) -> dict: `zeeline calibrate crosstalk --json`. cube: a FITS file name or an array "
+            "(Stokes, wavelength, y, x) with wavelength_nm, as for map() (cube_frame default vacuum); with "
+            "correct=True and output= the corrected cube is written as a FITS file.",
+            cli::AddCalibrateCommand, {"calibrate", "crosstalk"}));
   m.def(
       "calibrate_magnet",
       [](const py::kwargs& kw) { return RunJsonCommand(cli::AddCalibrateCommand, {"calibrate", "magnet"}, kw); },

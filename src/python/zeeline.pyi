@@ -211,8 +211,11 @@ def calibrate_modulation(
 ) -> Result: ...
 
 def calibrate_crosstalk(
-    cube: _Path,
+    cube: Union[_Path, _Array],
+    wavelength_nm: Optional[_Array] = ...,
     *,
+    stokes: str = ...,
+    cube_frame: Optional[str] = ...,
     correct: bool = ...,
     output: Optional[_Path] = ...,
     continuum: Optional[str] = ...,

@@ -40,6 +40,17 @@ def cli_error(*args, expect_code):
     return line[0][len("zeeline: error: "):]
 
 
+def write_cube(path, data, wl, ctype):
+    """A FITS cube (Stokes, wavelength, y, x) written by astropy with the header that map() and
+    calibrate_crosstalk() give an array: a linear spectral axis from wl (CTYPE3 `ctype`), STOKES 1, 2, ..."""
+    from astropy.io import fits
+    h = fits.PrimaryHDU(data)
+    h.header["CTYPE3"], h.header["CUNIT3"], h.header["CRPIX3"] = ctype, "nm", 1.0
+    h.header["CRVAL3"], h.header["CDELT3"] = wl[0], (wl[-1] - wl[0]) / (len(wl) - 1)
+    h.header["CTYPE4"], h.header["CRPIX4"], h.header["CRVAL4"], h.header["CDELT4"] = "STOKES", 1.0, 1.0, 1.0
+    h.writeto(path)
+
+
 def _numbers(x):
     return isinstance(x, list) and len(x) > 0 and all(
         v is None or (isinstance(v, (int, float)) and not isinstance(v, bool)) for v in x)

@@ -9,7 +9,7 @@ import pytest
 from astropy.io import fits
 
 import zeeline
-from conftest import CUBE, LINES, cli_error, run_cli
+from conftest import CUBE, LINES, cli_error, run_cli, write_cube
 
 FE = dict(line="FeI_6302", catalog=LINES)
 # A sub-region of the demo cube (y, x) with strong and weak field, small enough for the me pixels of auto.
@@ -39,15 +39,6 @@ def _demo_arrays():
     return wl, data
 
 
-def _write_cube(path, data, wl):
-    """A FITS cube written by astropy with the header map() gives an array: linear AWAV axis from wl."""
-    h = fits.PrimaryHDU(data)
-    h.header["CTYPE3"], h.header["CUNIT3"], h.header["CRPIX3"] = "AWAV", "nm", 1.0
-    h.header["CRVAL3"], h.header["CDELT3"] = wl[0], (wl[-1] - wl[0]) / (wl.size - 1)
-    h.header["CTYPE4"], h.header["CRPIX4"], h.header["CRVAL4"], h.header["CDELT4"] = "STOKES", 1.0, 1.0, 1.0
-    h.writeto(path)
-
-
 def test_map_of_the_demo_file_is_identical_to_the_cli_map_file(tmp):
     reference = _cli_maps(CUBE, tmp / "maps.fits", "--method", "wfa")
     result = zeeline.map(CUBE, method="wfa", **FE)
@@ -59,7 +50,7 @@ def test_map_of_the_demo_file_is_identical_to_the_cli_map_file(tmp):
 def test_map_of_an_array_is_identical_to_the_cli_on_the_same_cube(tmp, dtype):
     wl, data = _demo_arrays()
     sub = np.ascontiguousarray(data[:, :, Y0:Y1, X0:X1]).astype(dtype)
-    _write_cube(tmp / "sub.fits", sub, wl)
+    write_cube(tmp / "sub.fits", sub, wl, "AWAV")
     reference = _cli_maps(tmp / "sub.fits", tmp / "maps.fits", "--method", "auto")
     result = zeeline.map(sub, wavelength_nm=wl, method="auto", **FE)
     _assert_same_maps(result, reference)

@@ -1,9 +1,11 @@
 """info, broadening and calibrate functions of the Python module: the same result as the CLI's --json on the
 bundled demo inputs (docs/broadening.md, docs/polarimetry.md)."""
+import numpy as np
 import pytest
+from astropy.io import fits
 
 import zeeline
-from conftest import CUBE, DEMO, LINES, assert_same_as_json, cli_error, cli_json, run_cli
+from conftest import CUBE, DEMO, LINES, assert_same_as_json, cli_error, cli_json, run_cli, write_cube
 
 # The lab-safety notes of these commands come as UserWarnings (checked in test_safety_notes_are_warnings).
 pytestmark = pytest.mark.filterwarnings("ignore:safety:UserWarning")
@@ -46,6 +48,29 @@ def test_calibrate_modulation_equals_the_cli():
 def test_calibrate_crosstalk_equals_the_cli():
     cube = f"{CAL}/crosstalk_scan.fits"
     assert_same_as_json(zeeline.calibrate_crosstalk(cube), cli_json("calibrate", "crosstalk", cube))
+
+
+def test_calibrate_crosstalk_of_an_array_equals_the_cli_on_the_same_cube(tmp):
+    cube = f"{CAL}/crosstalk_scan.fits"
+    wl = zeeline.info(cube)["wavelength_nm"]
+    with fits.open(cube) as h:
+        data = h[0].data.transpose(2, 3, 0, 1)  # file axes (wavelength, Stokes, x, y) -> (Stokes, wavelength, y, x)
+    assert not data.flags["C_CONTIGUOUS"]
+    write_cube(tmp / "same.fits", np.ascontiguousarray(data), wl, "WAVE")
+    reference = cli_json("calibrate", "crosstalk", tmp / "same.fits")
+    result = zeeline.calibrate_crosstalk(data, wl)
+    assert result.pop("input") == "(numpy cube)"
+    reference.pop("input")
+    assert_same_as_json(result, reference)
+    # The corrected cube is written like the CLI's (here: read back and checked against the coefficients).
+    zeeline.calibrate_crosstalk(data, wl, correct=True, output=str(tmp / "corrected.fits"))
+    corrected = fits.getdata(tmp / "corrected.fits")
+    assert corrected.shape == data.shape
+    # V' = V - aV I (the correction stated in the corrected file's HISTORY, docs/polarimetry.md); float32 file.
+    i, v = data[0].astype(np.float64), data[3].astype(np.float64)
+    assert np.allclose(corrected[3], v - result["I_to_V"] * i, rtol=0, atol=1e-6 * np.abs(i).max())
+    with pytest.raises(ValueError, match="wavelength_nm"):
+        zeeline.calibrate_crosstalk(data)
 
 
 def test_calibrate_magnet_equals_the_cli():
