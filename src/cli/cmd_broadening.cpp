@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "cli/diagnose_command.hpp"
 #include "cli/json_writer.hpp"
 #include "cli/notices.hpp"
 #include "io/atomic_file.hpp"
@@ -293,14 +294,6 @@ void AddInglisTeller(CLI::App* parent) {
 }
 
 // ------------------------------------------------------------------------------------------- diagnose
-struct DiagnoseArgs {
-  std::string spectrum, catalog, lines, instrument_fwhm, microturbulence, window, png;
-  std::optional<double> gs;
-  double noise = 0.0, noise_v = 0.0, detection_sigma = 3.0, degeneracy_tolerance = 0.1;
-  int v_sign = 1;
-  bool no_v = false, json = false, overwrite = false;
-};
-
 std::vector<std::string> SplitNames(const std::string& text) {
   std::vector<std::string> out;
   std::stringstream ss(text);
@@ -598,26 +591,37 @@ void AddDiagnose(CLI::App* parent) {
       "      --instrument-fwhm 3pm\n"
       "  zeeline broadening diagnose hot.txt --catalog lines.csv --lines HeI_5016,HeI_6678 --json");
   cmd->add_option("spectrum", a->spectrum, "spectrum table or FITS file")->required();
-  cmd->add_option("--catalog", a->catalog, "line list with levels and mass_amu (docs/line_list.md)")->required();
-  cmd->add_option("--lines", a->lines, "comma-separated line names (default: every catalog line inside the spectrum)");
-  cmd->add_option("--instrument-fwhm", a->instrument_fwhm, "Gaussian instrument FWHM, e.g. 3pm (default 0)");
-  cmd->add_option("--microturbulence", a->microturbulence, "known microturbulence, subtracted for the temperature");
-  cmd->add_option("--window", a->window, "half-width of each line's fit window, e.g. 0.1nm (default: 5 observed FWHM)");
-  cmd->add_option("--noise", a->noise, "noise of I (and V) in data units (default: measured in the windows' outer parts)");
-  cmd->add_option("--noise-v", a->noise_v, "noise of V in data units (default: --noise or measured)");
-  cmd->add_option("--detection-sigma", a->detection_sigma, "significance needed to call a field required")->capture_default_str();
-  cmd->add_option("--degeneracy-tolerance", a->degeneracy_tolerance,
-                  "relative spread of z*lambda^2 (or z*lambda) below which the line set is degenerate")->capture_default_str();
-  cmd->add_flag("--no-v", a->no_v, "ignore Stokes V even when present (widths only)");
-  cmd->add_option("--v-sign", a->v_sign, "+1, or -1 for data using the IAU 1974 sign of V")->capture_default_str();
-  cmd->add_option("--gs", a->gs, "electron spin g-factor (default CODATA; 2 = textbook)");
-  cmd->add_flag("--json", a->json, "print one JSON object (keys in docs/broadening.md)");
-  cmd->add_option("--png", a->png, "picture of the fits (one per line: P_<line>.png when there are several)");
-  cmd->add_flag("--overwrite", a->overwrite, "replace existing pictures");
+  AddDiagnoseOptions(cmd, *a);
   cmd->callback([a] { RunDiagnose(*a); });
 }
 
 }  // namespace
+
+void AddDiagnoseOptions(CLI::App* cmd, DiagnoseArgs& a) {
+  cmd->add_option("--catalog", a.catalog, "line list with levels and mass_amu (docs/line_list.md)")->required();
+  cmd->add_option("--lines", a.lines, "comma-separated line names (default: every catalog line inside the spectrum)");
+  cmd->add_option("--instrument-fwhm", a.instrument_fwhm, "Gaussian instrument FWHM, e.g. 3pm (default 0)");
+  cmd->add_option("--microturbulence", a.microturbulence, "known microturbulence, subtracted for the temperature");
+  cmd->add_option("--window", a.window, "half-width of each line's fit window, e.g. 0.1nm (default: 5 observed FWHM)");
+  cmd->add_option("--noise", a.noise, "noise of I (and V) in data units (default: measured in the windows' outer parts)");
+  cmd->add_option("--noise-v", a.noise_v, "noise of V in data units (default: --noise or measured)");
+  cmd->add_option("--detection-sigma", a.detection_sigma, "significance needed to call a field required")->capture_default_str();
+  cmd->add_option("--degeneracy-tolerance", a.degeneracy_tolerance,
+                  "relative spread of z*lambda^2 (or z*lambda) below which the line set is degenerate")->capture_default_str();
+  cmd->add_flag("--no-v", a.no_v, "ignore Stokes V even when present (widths only)");
+  cmd->add_option("--v-sign", a.v_sign, "+1, or -1 for data using the IAU 1974 sign of V")->capture_default_str();
+  cmd->add_option("--gs", a.gs, "electron spin g-factor (default CODATA; 2 = textbook)");
+  cmd->add_flag("--json", a.json, "print one JSON object (keys in docs/broadening.md)");
+  cmd->add_option("--png", a.png, "picture of the fits (one per line: P_<line>.png when there are several)");
+  cmd->add_flag("--overwrite", a.overwrite, "replace existing pictures");
+}
+
+void DiagnoseToJson(const DiagnoseArgs& a, const Spectrum1D& s, std::ostream& out) {
+  std::string species;
+  const WidthDiagnosisOptions o = DiagnoseOptionsFrom(a, s, species);
+  WriteDiagnoseJson(out, s, species, o, DiagnoseWidths(s, o));
+  Notice(kLabSafety);
+}
 
 void AddBroadeningCommand(CLI::App& app) {
   auto* cmd = app.add_subcommand("broadening", "Is a line's width magnetic? Broadening budget, Inglis-Teller, diagnosis");

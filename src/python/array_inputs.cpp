@@ -72,7 +72,10 @@ void CheckFits(int status, const std::string& path, const std::string& what) {
 }  // namespace
 
 Spectrum1D SpectrumFromArrays(const py::handle& wavelength_nm, const py::handle& I, const py::handle& Q,
-                              const py::handle& U, const py::handle& V) {
+                              const py::handle& U, const py::handle& V, int v_sign) {
+  SpectrumReadOptions read;
+  read.v_sign = v_sign;
+  if (const std::string bad = read.Validate(); !bad.empty()) throw OptionError(bad);
   Spectrum1D s;
   s.source = "(numpy arrays)";
   s.wavelength_nm = Column(wavelength_nm, "wavelength_nm");
@@ -102,6 +105,8 @@ Spectrum1D SpectrumFromArrays(const py::handle& wavelength_nm, const py::handle&
                             " is not greater than wavelength_nm[" + std::to_string(i - 1) + "] = " +
                             Num(s.wavelength_nm[i - 1]) + "; wavelengths must increase strictly");
   }
+  if (v_sign == -1)
+    for (double& v : s.V) v = -v;
   return s;
 }
 

@@ -21,9 +21,11 @@
 
 namespace zeeline::python {
 
-/// Throws pybind11::value_error naming the array, the index and what was expected.
+/// V is multiplied by v_sign (+1, or -1 for data in the IAU 1974 sense) as a file reader does. Throws
+/// pybind11::value_error naming the array, the index and what was expected; OptionError for a bad v_sign.
 Spectrum1D SpectrumFromArrays(const pybind11::handle& wavelength_nm, const pybind11::handle& I,
-                              const pybind11::handle& Q, const pybind11::handle& U, const pybind11::handle& V);
+                              const pybind11::handle& Q, const pybind11::handle& U, const pybind11::handle& V,
+                              int v_sign);
 
 class TemporaryCubeFile {
  public:

@@ -16,6 +16,7 @@
 #include <pybind11/pybind11.h>
 
 #include "cli/commands.hpp"
+#include "cli/diagnose_command.hpp"
 #include "cli/map_command.hpp"
 #include "cli/measure_command.hpp"
 #include "cli/notices.hpp"
@@ -99,21 +100,41 @@ py::object Measure(const py::object& spectrum, const py::object& I, const py::ob
   CLI::App app{"zeeline measure"};
   cli::AddMeasureOptions(&app, args);
   ParseTokens(app, OptionTokens(kwargs));
-  Spectrum1D s = SpectrumFromArrays(spectrum, I, Q, U, V);
+  const Spectrum1D s = SpectrumFromArrays(spectrum, I, Q, U, V, args.v_sign);
   std::ostringstream json;
   cli::NoticeCollector notices;
   {
     py::gil_scoped_release release;
     const cli::SelectedLine line = cli::MeasureLine(args);
-    SpectrumReadOptions ro;
-    ro.v_sign = args.v_sign;
-    const std::string bad = ro.Validate();
-    if (!bad.empty()) throw OptionError(bad);
-    if (ro.v_sign == -1)
-      for (double& v : s.V) v = -v;
     const cli::MeasureRun run = cli::MeasureWithArgs(args, line, s);
     cli::NoticeMeasureSafety(run);
     cli::WriteMeasureJson(json, s, line, run);
+  }
+  Warn(notices);
+  return JsonToPython(json.str());
+}
+
+// ---- broadening diagnose ------------------------------------------------------------------------------
+py::object BroadeningDiagnose(const py::object& spectrum, const py::object& I, const py::object& V,
+                              const py::kwargs& kwargs) {
+  if (IsPath(spectrum)) {
+    if (!I.is_none() || !V.is_none())
+      throw py::value_error("broadening_diagnose(FILE, ...): the file holds the spectrum; give a file or arrays");
+    return RunJsonCommand(cli::AddBroadeningCommand, {"broadening", "diagnose"}, kwargs,
+                          {PathText(spectrum, "spectrum")});
+  }
+  if (I.is_none()) throw py::value_error("broadening_diagnose(wavelength_nm, I, ...): I is required with arrays");
+  RefuseKeywords(kwargs, {"json", "png", "overwrite"}, "the diagnosis of arrays returns the JSON result");
+  cli::DiagnoseArgs args;
+  CLI::App app{"zeeline broadening diagnose"};
+  cli::AddDiagnoseOptions(&app, args);
+  ParseTokens(app, OptionTokens(kwargs));
+  const Spectrum1D s = SpectrumFromArrays(spectrum, I, py::none(), py::none(), V, args.v_sign);
+  std::ostringstream json;
+  cli::NoticeCollector notices;
+  {
+    py::gil_scoped_release release;
+    cli::DiagnoseToJson(args, s, json);
   }
   Warn(notices);
   return JsonToPython(json.str());
@@ -315,16 +336,12 @@ PYBIND11_MODULE(zeeline, m) {
       Doc("broadening_inglis_teller(last_resolved=None, density=None, ...) -> dict: "
           "`zeeline broadening inglis-teller --json`.",
           cli::AddBroadeningCommand, {"broadening", "inglis-teller"}));
-  m.def(
-      "broadening_diagnose",
-      [](const py::object& spectrum, const py::kwargs& kw) {
-        return RunJsonCommand(cli::AddBroadeningCommand, {"broadening", "diagnose"}, kw,
-                              {PathText(spectrum, "spectrum")});
-      },
-      py::arg("spectrum"),
-      Doc("broadening_diagnose(spectrum, catalog=, ...) -> dict: is the width magnetic? "
-          "`zeeline broadening diagnose --json`.",
-          cli::AddBroadeningCommand, {"broadening", "diagnose"}));
+  m.def("broadening_diagnose", &BroadeningDiagnose, py::arg("spectrum"), py::arg("I") = py::none(),
+        py::arg("V") = py::none(),
+        Doc("broadening_diagnose(spectrum, I=None, V=None, catalog=, ...) -> dict: is the width magnetic? "
+            "`zeeline broadening diagnose --json`. spectrum: a table or FITS file, or the wavelengths in nm "
+            "with I (and V) as arrays, held to the rules of measure().",
+            cli::AddBroadeningCommand, {"broadening", "diagnose"}));
   m.def(
       "calibrate_modulation",
       [](const py::object& table, const py::kwargs& kw) {

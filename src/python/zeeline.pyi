@@ -180,7 +180,9 @@ def broadening_inglis_teller(
 ) -> Result: ...
 
 def broadening_diagnose(
-    spectrum: _Path,
+    spectrum: Union[_Path, _Array],
+    I: Optional[_Array] = ...,
+    V: Optional[_Array] = ...,
     *,
     catalog: _Path,
     lines: Optional[str] = ...,

@@ -75,6 +75,15 @@ def test_measure_of_strided_arrays_equals_contiguous_copies():
     assert_identical(a, b)
 
 
+def test_v_sign_of_arrays_works_as_for_files():
+    w, s = _synthetic_umbra()
+    plain = zeeline.measure(w, s["I"], s["Q"], s["U"], s["V"], line="FeI_6302", catalog=LINES)
+    iau = zeeline.measure(w, s["I"], s["Q"], s["U"], -s["V"], line="FeI_6302", catalog=LINES, v_sign=-1)
+    assert_identical(plain, iau)
+    with pytest.raises(ValueError, match="v_sign"):
+        zeeline.measure(w, s["I"], line="FeI_6302", catalog=LINES, v_sign=2)
+
+
 def test_measure_of_stokes_i_and_v_only(tmp):
     w, s = _synthetic_umbra()
     table = tmp / "iv.txt"

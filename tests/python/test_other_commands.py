@@ -39,6 +39,21 @@ def test_broadening_diagnose_equals_the_cli():
     assert_same_as_json(zeeline.broadening_diagnose(spectrum, catalog=PLASMA, instrument_fwhm="3pm"), reference)
 
 
+def test_broadening_diagnose_of_arrays_equals_the_cli_on_the_same_samples():
+    spectrum = f"{DEMO}/spectra/he_column_magnetised.txt"
+    w, i, v = np.loadtxt(spectrum, skiprows=3).T  # both parsers give the correctly rounded doubles
+    reference = cli_json("broadening", "diagnose", spectrum, "--catalog", PLASMA, "--instrument-fwhm", "3pm")
+    result = zeeline.broadening_diagnose(w, i, v, catalog=PLASMA, instrument_fwhm="3pm")
+    assert result["input"].pop("file") == "(numpy arrays)"
+    reference["input"].pop("file")
+    assert_same_as_json(result, reference)
+    # V in the IAU 1974 sense with v_sign=-1 gives the same diagnosis.
+    flipped = zeeline.broadening_diagnose(w, i, -v, catalog=PLASMA, instrument_fwhm="3pm", v_sign=-1)
+    assert flipped["field_gauss"] == result["field_gauss"] and flipped["verdict"] == result["verdict"]
+    with pytest.raises(ValueError, match="png"):
+        zeeline.broadening_diagnose(w, i, v, catalog=PLASMA, png="x.png")
+
+
 def test_calibrate_modulation_equals_the_cli():
     table = f"{CAL}/bench_sequence.csv"
     reference = cli_json("calibrate", "modulation", table, "--gain", "2.1", "--read-noise", "6")
