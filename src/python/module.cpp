@@ -3,7 +3,8 @@
 // Each function takes the command's options as keyword arguments (option name with '_' for '-'), values
 // as the CLI takes them ('630.2494nm', '1200G') or as plain numbers in the base units (nm, G, km/s), runs
 // the command's own code in-process and returns what `--json` prints as dicts of numpy arrays and numbers
-// (same keys, same numbers). measure and map also take numpy arrays; map releases the GIL while it runs.
+// (same keys, same numbers). measure, broadening_diagnose, map and calibrate_crosstalk also take numpy
+// arrays. Every function releases the GIL while the command runs.
 #include <atomic>
 #include <functional>
 #include <memory>
@@ -71,10 +72,14 @@ py::object RunJsonCommand(const AddCommand& add, const std::vector<std::string>&
 py::object Lande(const py::object& level, const py::object& gs) {
   const bool many = py::isinstance<py::list>(level) || py::isinstance<py::tuple>(level);
   std::vector<std::string> levels;
+  auto text = [](const py::handle& l) {
+    if (!py::isinstance<py::str>(l)) throw py::type_error("level: expected a str such as '5D4' or '2P3/2'");
+    return l.cast<std::string>();
+  };
   if (many) {
-    for (auto l : level) levels.push_back(PathText(l, "level"));
+    for (auto l : level) levels.push_back(text(l));
   } else {
-    levels.push_back(PathText(level, "level"));
+    levels.push_back(text(level));
   }
   py::kwargs kw;
   kw["gs"] = gs;

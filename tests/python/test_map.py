@@ -162,3 +162,12 @@ def test_quality_names_match_the_qbit_keywords_of_the_cli_map_file(tmp):
         assert zeeline.quality_names(1 << bit) == [name]
     assert zeeline.quality_names(0) == []
     assert zeeline.quality_names(1 | 2) == [bits[0], bits[1]]
+
+
+def test_the_maps_do_not_depend_on_the_thread_count():
+    wl, data = _demo_arrays()
+    sub = np.ascontiguousarray(data[:, :, Y0:Y1, X0:X1])
+    one = zeeline.map(sub, wavelength_nm=wl, method="auto", threads=1, **FE)
+    _assert_same_maps(zeeline.map(sub, wavelength_nm=wl, method="auto", threads=2, **FE), one)
+    with pytest.raises(TypeError):
+        zeeline.lande(5)
