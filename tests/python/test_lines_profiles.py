@@ -109,6 +109,8 @@ def test_unknown_keywords_and_wrong_types_are_refused():
         zeeline.profile(**FE_6302, field=object())
     with pytest.raises(ValueError, match="json"):
         zeeline.line(**FE_6302, json=True)
+    with pytest.raises(TypeError):
+        zeeline.lande(5)
 
 
 def test_missing_catalog_is_an_os_error_with_the_cli_message():

@@ -169,5 +169,3 @@ def test_the_maps_do_not_depend_on_the_thread_count():
     sub = np.ascontiguousarray(data[:, :, Y0:Y1, X0:X1])
     one = zeeline.map(sub, wavelength_nm=wl, method="auto", threads=1, **FE)
     _assert_same_maps(zeeline.map(sub, wavelength_nm=wl, method="auto", threads=2, **FE), one)
-    with pytest.raises(TypeError):
-        zeeline.lande(5)
