@@ -14,6 +14,7 @@
 #include "cli/interrupt.hpp"
 #include "cli/line_selection.hpp"
 #include "cli/map_command.hpp"
+#include "cli/parallel.hpp"
 #include "zeeline/atomic/paschen_back.hpp"
 #include "cli/output_paths.hpp"
 #include "zeeline/core/errors.hpp"
@@ -166,7 +167,7 @@ void RunMap(const MapArgs& a) {
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
      << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
      << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me << "|"
-     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.consistency_sigma;
+     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.consistency_sigma << "|" << a.tile_mib;
   for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;
   run.fingerprint = fp.str();
@@ -174,7 +175,7 @@ void RunMap(const MapArgs& a) {
   if (a.resume) run.checkpoint_path = a.output + ".checkpoint";
   InterruptGuard interrupt;  // Ctrl-C stops the run between tiles
   run.cancel = interrupt.flag();
-  const bool show_progress = !a.quiet && isatty(STDERR_FILENO);
+  const bool show_progress = !a.quiet && IsOutputRank() && isatty(STDERR_FILENO);
   if (show_progress) {
     run.progress = [](long done, long total) {
       const int width = 40;
@@ -185,7 +186,7 @@ void RunMap(const MapArgs& a) {
       std::fflush(stderr);
     };
   }
-  if (!info.stokes.empty() && info.StokesIndex(StokesParameter::kQ) < 0 && !a.quiet)
+  if (!info.stokes.empty() && info.StokesIndex(StokesParameter::kQ) < 0 && !a.quiet && IsOutputRank())
     std::fprintf(stderr,
                  "zeeline: note: %s has no Stokes Q/U: no B_AZIM; B_LOS and V_LOS everywhere; B_TOTAL, B_INCL "
                  "and B_TRANS only where the sigma groups are resolved (split |B| with the centre-of-gravity "
@@ -193,12 +194,16 @@ void RunMap(const MapArgs& a) {
                  a.cube.c_str());
 
   FieldMaps maps;
-  const RunStatus status = ComputeFieldMaps(reader, o, run, maps);
+  std::string ranks_summary;
+  const RunStatus status = ComputeMapsOnAllRanks(reader, o, run, a.rows_per_task, maps, ranks_summary);
   if (status == RunStatus::kCancelled) {
-    std::fprintf(stderr, "\nzeeline: interrupted; no map file was written%s\n",
-                 a.resume ? (" (checkpoint " + run.checkpoint_path + " kept for --resume)").c_str() : "");
+    if (IsOutputRank())
+      std::fprintf(stderr, "\nzeeline: interrupted; no map file was written%s\n",
+                   a.resume ? (" (checkpoint " + run.checkpoint_path + " kept for --resume)").c_str() : "");
+    StopParallel();
     std::exit(130);
   }
+  if (!IsOutputRank()) return;  // MPI: rank 0 gathered the maps and writes them
 
   const std::vector<ImageHdu> hdus = MapHdus(maps, o);
 
@@ -240,6 +245,7 @@ void RunMap(const MapArgs& a) {
     if (maps.method_counts[4] > 0 && !a.resume)  // iteration counts are not kept in checkpoints
       std::printf("me: %.1f iterations per pixel on average\n",
                   static_cast<double>(maps.me_iterations) / static_cast<double>(maps.method_counts[4]));
+    if (!ranks_summary.empty()) std::printf("%s\n", ranks_summary.c_str());
     if (!pngs.empty()) std::printf("quicklook: %s (and %zu per-map PNGs)\n", pngs.back().c_str(), pngs.size() - 1);
   }
 }
@@ -268,7 +274,10 @@ void AddMapComputeOptions(CLI::App* cmd, MapArgs& a) {
       ->capture_default_str();
   cmd->add_option("--v-sign", a.v_sign, "+1, or -1 for data using the IAU 1974 sign of V (docs/conventions.md)")->capture_default_str();
   cmd->add_flag("--require-transverse", a.require_transverse, "refuse cubes without Stokes Q and U");
-  cmd->add_option("--threads", a.threads, "worker threads (0 = all cores)")->capture_default_str();
+  cmd->add_option("--threads", a.threads, "worker threads (0 = all cores; under mpirun per rank: the node's cores shared by its ranks)")->capture_default_str();
+  cmd->add_option("--tile-mib", a.tile_mib,
+                  "memory for one tile of the cube in MiB (the spectral window comes from the first tile)")
+      ->capture_default_str();
   cmd->add_option("--fix", a.fix, "me: fix parameters, e.g. fill=1,damping=0.15 (fill is fixed at 1 by default)");
   cmd->add_option("--free", a.free, "me: free parameters, e.g. fill");
   cmd->add_option("--bounds", a.bounds, "me: bounds, e.g. b_total=0:4000,v_los=-10:10");
@@ -289,7 +298,8 @@ void AddMapComputeOptions(CLI::App* cmd, MapArgs& a) {
 CubeReadOptions MapReadOptions(const MapArgs& a) {
   CubeReadOptions read;
   read.v_sign = a.v_sign;
-  read.threads = a.threads;  // the reorder of each tile uses the same threads as the estimators
+  read.max_tile_mib = a.tile_mib;
+  read.threads = a.threads > 0 ? a.threads : DefaultThreads();  // the reorder uses the estimators' threads
   const std::string bad_read = read.Validate();
   if (!bad_read.empty()) throw OptionError(bad_read);
   return read;
@@ -327,7 +337,7 @@ MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const Cu
   o.transverse_detection = a.transverse_detection;
   o.consistency_sigma = a.shape_test_sigma;
   o.need_transverse = a.require_transverse;
-  o.threads = a.threads;
+  o.threads = a.threads > 0 ? a.threads : DefaultThreads();  // under MPI: the node's cores shared by its ranks
   ApplyMeOptions(a, o);
   for (const std::string& spec : a.extra_lines) o.extra_lines.push_back(ResolveExtraLine(a, spec, info.frame));
   const std::string bad = o.Validate();
@@ -403,6 +413,9 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("cube", a->cube, "Stokes cube (FITS; cube.fits[2] or cube.fits[EXTNAME] picks an HDU)")->required();
   cmd->add_option("-o,--output", a->output, "output map file (FITS)")->required();
   AddMapComputeOptions(cmd, *a);
+  cmd->add_option("--rows-per-task", a->rows_per_task,
+                  "under mpirun: spatial rows per unit of work handed to a rank (0 = about 8 units per rank; docs/scaling.md)")
+      ->capture_default_str();
   cmd->add_option("--png", a->png_dir, "also write quicklook PNGs into this directory");
   cmd->add_flag("--overwrite", a->overwrite, "replace an existing output file");
   cmd->add_flag("--resume", a->resume, "keep a checkpoint (OUTPUT.checkpoint) and continue an interrupted run from it");

@@ -34,6 +34,7 @@ void AddInfoCommand(CLI::App& app);
 void AddViewCommand(CLI::App& app);
 void AddBroadeningCommand(CLI::App& app);
 void AddCalibrateCommand(CLI::App& app);
+void AddBenchCommand(CLI::App& app);
 
 /// Quicklook PNG paths for a map file: DIR/<stem>_<extname>.png for each name, then DIR/<stem>_summary.png
 /// (DIR defaults to the map file's directory).

@@ -2,9 +2,15 @@
 #include <iostream>
 
 #include "cli/commands.hpp"
+#include "cli/parallel.hpp"
 #include "zeeline/core/errors.hpp"
+#ifdef ZEELINE_WITH_MPI
+#include "mpi/mpi_backend.hpp"
+#endif
 
-int main(int argc, char** argv) {
+namespace {
+
+int Run(int argc, char** argv) {
   CLI::App app{
       "zeeline " ZEELINE_VERSION " -- magnetic fields from polarised spectra.\n"
       "Landé factors and Zeeman patterns, Stokes cubes in, field maps out.\n"
@@ -24,24 +30,40 @@ int main(int argc, char** argv) {
   zeeline::cli::AddViewCommand(app);
   zeeline::cli::AddBroadeningCommand(app);
   zeeline::cli::AddCalibrateCommand(app);
+  zeeline::cli::AddBenchCommand(app);
 
   try {
+    // Under an MPI launcher only `map` uses every rank; the others run on rank 0 (cli/parallel.hpp).
+    if (argc > 1 && !zeeline::cli::RunsOnThisRank(argv[1])) return 0;
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
-    const int code = app.exit(e);
+    const int code = zeeline::cli::IsOutputRank() ? app.exit(e) : (e.get_exit_code() == 0 ? 0 : 2);
     return code == 0 ? 0 : 2;
+  } catch (const zeeline::OptionError& e) {
+    return zeeline::cli::ReportFailure(e, 2);
+  } catch (const zeeline::UnitError& e) {
+    return zeeline::cli::ReportFailure(e, 2);
+  } catch (const zeeline::cli::OutputError& e) {
+    return zeeline::cli::ReportFailure(e, 3);
+  } catch (const std::exception& e) {
+    return zeeline::cli::ReportFailure(e, 1);
+  }
+  return 0;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+#ifdef ZEELINE_WITH_MPI
+  zeeline::cli::InstallMpiBackend();  // `mpirun -np N zeeline map` (docs/scaling.md)
+#endif
+  try {
+    zeeline::cli::StartParallel(argc, argv);
   } catch (const zeeline::OptionError& e) {
     std::cerr << "zeeline: error: " << e.what() << "\n";
     return 2;
-  } catch (const zeeline::UnitError& e) {
-    std::cerr << "zeeline: error: " << e.what() << "\n";
-    return 2;
-  } catch (const zeeline::cli::OutputError& e) {
-    std::cerr << "zeeline: error: " << e.what() << "\n";
-    return 3;
-  } catch (const std::exception& e) {
-    std::cerr << "zeeline: error: " << e.what() << "\n";
-    return 1;
   }
-  return 0;
+  const int code = Run(argc, argv);
+  zeeline::cli::StopParallel();
+  return code;
 }

@@ -23,6 +23,8 @@ struct MapArgs {
          detection_sigma = FieldMapOptions{}.detection_sigma, transverse_detection = FieldMapOptions{}.transverse_detection,
          shape_test_sigma = FieldMapOptions{}.consistency_sigma;
   int threads = 0, v_sign = 1;
+  double tile_mib = CubeReadOptions{}.max_tile_mib;
+  long rows_per_task = 0;  // under mpirun only (cli/parallel.hpp)
   bool overwrite = false, resume = false, require_transverse = false, quiet = false;
   // Milne-Eddington and disambiguation options.
   std::string fix, free, bounds, stokes_weights;
@@ -37,7 +39,7 @@ struct MapArgs {
 /// disambiguation and --threads/--v-sign options (not the cube, -o, --png, --overwrite, --resume, --quiet).
 void AddMapComputeOptions(CLI::App* cmd, MapArgs& a);
 
-/// How the cube is read (--v-sign, --threads), validated.
+/// How the cube is read (--v-sign, --threads, --tile-mib), validated.
 CubeReadOptions MapReadOptions(const MapArgs& a);
 
 struct MapSetup {

@@ -1,0 +1,381 @@
+#include "mpi/distributed_maps.hpp"
+
+#include <mpi.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cstring>
+#include <sstream>
+#include <thread>
+
+#include "zeeline/core/errors.hpp"
+
+namespace zeeline {
+namespace {
+
+// Message tags between the ranks and rank 0.
+enum Tag : int { kTagRequest = 1, kTagTask = 2, kTagResult = 3, kTagError = 4 };
+// Status broadcast by rank 0 after setup and after the task loop.
+enum Status : int { kStatusOk = 0, kStatusFailed = 1, kStatusCancelled = 2 };
+
+constexpr int kHeaderWords = 3;  // task, pixels, ME iterations
+
+int Rank() {
+  int r = 0;
+  MPI_Comm_rank(MPI_COMM_WORLD, &r);
+  return r;
+}
+
+int Size() {
+  int s = 1;
+  MPI_Comm_size(MPI_COMM_WORLD, &s);
+  return s;
+}
+
+// Rank 0's status and message to every rank.
+void BroadcastStatus(int& status, std::string& message) {
+  MPI_Bcast(&status, 1, MPI_INT, 0, MPI_COMM_WORLD);
+  std::int64_t n = static_cast<std::int64_t>(message.size());
+  MPI_Bcast(&n, 1, MPI_INT64_T, 0, MPI_COMM_WORLD);
+  message.resize(static_cast<std::size_t>(n));
+  if (n > 0) MPI_Bcast(message.data(), static_cast<int>(n), MPI_CHAR, 0, MPI_COMM_WORLD);
+}
+
+void BroadcastLayout(SpectralLayout& layout) {
+  MPI_Bcast(&layout.window_halfwidth_nm, 1, MPI_DOUBLE, 0, MPI_COMM_WORLD);
+  std::vector<std::uint64_t> idx(layout.continuum.begin(), layout.continuum.end());
+  std::int64_t n = static_cast<std::int64_t>(idx.size());
+  MPI_Bcast(&n, 1, MPI_INT64_T, 0, MPI_COMM_WORLD);
+  idx.resize(static_cast<std::size_t>(n));
+  MPI_Bcast(idx.data(), static_cast<int>(n), MPI_UINT64_T, 0, MPI_COMM_WORLD);
+  layout.continuum.assign(idx.begin(), idx.end());
+}
+
+// Waits for a request without spinning a core (a blocking MPI call polls; on a shared or oversubscribed
+// node that would take CPU from the ranks that compute).
+void WaitGently(MPI_Request& request) {
+  int done = 0;
+  while (true) {
+    MPI_Test(&request, &done, MPI_STATUS_IGNORE);
+    if (done) return;
+    std::this_thread::sleep_for(std::chrono::microseconds(100));
+  }
+}
+
+// Rows [first, first + count) of a tile (pixel-major, cube_reader.hpp) as a tile of their own.
+void CopyRows(const CubeTile& from, long first, long count, CubeTile& to) {
+  to.y_begin = from.y_begin + first;
+  to.y_count = count;
+  to.nx = from.nx;
+  to.n_stokes = from.n_stokes;
+  to.n_wavelength = from.n_wavelength;
+  const std::size_t per_pixel = static_cast<std::size_t>(from.n_stokes * from.n_wavelength);
+  const std::size_t p0 = static_cast<std::size_t>(first * from.nx), np = static_cast<std::size_t>(count * from.nx);
+  to.data.assign(from.data.begin() + static_cast<std::ptrdiff_t>(p0 * per_pixel),
+                 from.data.begin() + static_cast<std::ptrdiff_t>((p0 + np) * per_pixel));
+  to.nonfinite.assign(from.nonfinite.begin() + static_cast<std::ptrdiff_t>(p0),
+                      from.nonfinite.begin() + static_cast<std::ptrdiff_t>(p0 + np));
+}
+
+// FieldMaps::method_counts of rows [0, rows) from the METHOD map (what a one-process run has counted).
+void CountMethods(long rows, FieldMaps& maps) {
+  std::fill(std::begin(maps.method_counts), std::end(maps.method_counts), 0);
+  const std::size_t n = static_cast<std::size_t>(rows * maps.nx);
+  for (std::size_t i = 0; i < n; ++i)
+    if (maps.method[i] >= 0 && maps.method[i] < 5) ++maps.method_counts[maps.method[i]];
+}
+
+template <class T>
+void Append(std::vector<char>& buf, const T* data, std::size_t n) {
+  const std::size_t at = buf.size();
+  buf.resize(at + n * sizeof(T));
+  if (n) std::memcpy(buf.data() + at, data, n * sizeof(T));
+}
+
+template <class T>
+const char* Take(const char* p, T* data, std::size_t n) {
+  if (n) std::memcpy(data, p, n * sizeof(T));
+  return p + n * sizeof(T);
+}
+
+// The maps of one finished task (all pixels of its rows) as one message.
+void PackResult(long task, const FieldMaps& part, std::vector<char>& buf) {
+  buf.clear();
+  const std::size_t np = part.method.size();
+  const std::int64_t header[kHeaderWords] = {task, static_cast<std::int64_t>(np), part.me_iterations};
+  Append(buf, header, kHeaderWords);
+  for (const auto& s : part.slots) Append(buf, s.data(), np);
+  Append(buf, part.method.data(), np);
+  Append(buf, part.quality.data(), np);
+}
+
+// Places a packed result into the whole-cube maps at the task's first row; returns the task and its pixels.
+std::pair<long, long> UnpackResult(const std::vector<char>& buf, long first_row, long rows_per_task, FieldMaps& maps) {
+  std::int64_t header[kHeaderWords];
+  const char* p = Take(buf.data(), header, kHeaderWords);
+  const long task = static_cast<long>(header[0]);
+  const std::size_t np = static_cast<std::size_t>(header[1]);
+  const std::size_t at = static_cast<std::size_t>((first_row + task * rows_per_task) * maps.nx);
+  const std::size_t expected = kHeaderWords * sizeof(std::int64_t) +
+                               np * (kSlotCount * sizeof(float) + sizeof(std::int16_t) + sizeof(std::int32_t));
+  if (buf.size() != expected || at + np > maps.method.size())
+    throw DistributedRunError("internal error: a result message for task " + std::to_string(task) +
+                              " does not match the map size");
+  maps.me_iterations += header[2];  // method counts: from the METHOD map at the end (CountMethods)
+  for (auto& s : maps.slots) p = Take(p, s.data() + at, np);
+  p = Take(p, maps.method.data() + at, np);
+  Take(p, maps.quality.data() + at, np);
+  return {task, static_cast<long>(np)};
+}
+
+struct TaskPlan {
+  long first_row = 0, rows_per_task = 1, tasks = 0, ny = 0;
+  long Begin(long t) const { return first_row + t * rows_per_task; }
+  long Rows(long t) const { return std::min(rows_per_task, ny - Begin(t)); }
+};
+
+TaskPlan PlanTasks(long ny, long first_row, long rows_per_tile, int ranks, const DistributedMapOptions& d) {
+  TaskPlan plan;
+  plan.first_row = first_row;
+  plan.ny = ny;
+  const long todo = ny - first_row;
+  if (d.rows_per_task > 0) {
+    plan.rows_per_task = d.rows_per_task;
+  } else {
+    const long target_tasks = 8L * ranks;
+    plan.rows_per_task = std::clamp((todo + target_tasks - 1) / target_tasks, 1L, std::max(rows_per_tile, 1L));
+  }
+  plan.tasks = todo > 0 ? (todo + plan.rows_per_task - 1) / plan.rows_per_task : 0;
+  return plan;
+}
+
+std::string RowsText(const TaskPlan& plan, long t) {
+  return "rows " + std::to_string(plan.Begin(t) + 1) + ".." + std::to_string(plan.Begin(t) + plan.Rows(t));
+}
+
+// Ranks other than 0: ask, compute, send, until rank 0 answers -1.
+void RunWorker(CubeReader& reader, const FieldMapEngine& engine, const TaskPlan& plan) {
+  const int rank = Rank(), size = Size();
+  auto request = [] {
+    const std::int64_t nothing = 0;
+    MPI_Send(&nothing, 1, MPI_INT64_T, 0, kTagRequest, MPI_COMM_WORLD);
+  };
+  auto receive = [] {
+    std::int64_t t = -1;
+    MPI_Request r;
+    MPI_Irecv(&t, 1, MPI_INT64_T, 0, kTagTask, MPI_COMM_WORLD, &r);
+    WaitGently(r);
+    return static_cast<long>(t);
+  };
+  CubeTile tile;
+  FieldMaps part;
+  std::vector<char> out[2];
+  MPI_Request sent[2] = {MPI_REQUEST_NULL, MPI_REQUEST_NULL};
+  int slot = 0;
+  request();
+  long next = receive();
+  while (next >= 0) {
+    const long t = next;
+    request();  // the answer waits for us while we work
+    WaitGently(sent[slot]);
+    int tag = kTagResult;
+    try {
+      reader.ReadRows(plan.Begin(t), plan.Rows(t), tile);
+      engine.InitMaps(plan.Rows(t), part);
+      engine.Compute(tile, part, plan.Begin(t));
+      PackResult(t, part, out[slot]);
+    } catch (const std::exception& e) {
+      tag = kTagError;
+      const std::string text = "rank " + std::to_string(rank) + " of " + std::to_string(size) + " (cube " +
+                               RowsText(plan, t) + "): " + e.what();
+      out[slot].clear();
+      Append(out[slot], text.data(), text.size());
+    }
+    MPI_Isend(out[slot].data(), static_cast<int>(out[slot].size()), MPI_BYTE, 0, tag, MPI_COMM_WORLD, &sent[slot]);
+    slot ^= 1;
+    next = receive();
+  }
+  WaitGently(sent[0]);
+  WaitGently(sent[1]);
+}
+
+// Rank 0: hands out tasks, computes some itself, gathers everything; returns the status of the loop.
+int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskPlan& plan,
+                   const FieldMapRunOptions& run, const DistributedMapOptions& d, FieldMaps& maps,
+                   DistributedMapReport& report, std::string& failure) {
+  const int size = Size();
+  const bool self_compute = size <= kCoordinatorComputesUpTo;
+  report.tasks_per_rank.assign(static_cast<std::size_t>(size), 0);
+  report.pixels_per_rank.assign(static_cast<std::size_t>(size), 0);
+  std::vector<char> done(static_cast<std::size_t>(plan.tasks), 0);
+  long next = 0, prefix = 0, assigned_remote = 0, answered_remote = 0;
+  int stopped = 0;
+  bool cancelled = false;
+  using Clock = std::chrono::steady_clock;
+  Clock::time_point last_save = Clock::now();
+  long saved_rows = maps.rows_done;
+
+  auto stopping = [&] { return !failure.empty() || cancelled; };
+  auto take = [&]() -> long { return (stopping() || next >= plan.tasks) ? -1 : next++; };
+  auto save = [&](bool force) {
+    if (run.checkpoint_path.empty() || maps.rows_done == saved_rows) return;
+    if (!force && std::chrono::duration<double>(Clock::now() - last_save).count() < d.checkpoint_interval_s) return;
+    CountMethods(maps.rows_done, maps);
+    SaveFieldMapCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+    saved_rows = maps.rows_done;
+    last_save = Clock::now();
+  };
+  auto finished = [&](long t) {
+    done[static_cast<std::size_t>(t)] = 1;
+    while (prefix < plan.tasks && done[static_cast<std::size_t>(prefix)]) ++prefix;
+    maps.rows_done = prefix < plan.tasks ? plan.Begin(prefix) : plan.ny;
+    if (run.progress) run.progress(maps.rows_done, plan.ny);
+    save(false);
+  };
+  std::vector<char> buf;
+  auto handle = [&](const MPI_Status& st) {
+    int n = 0;
+    MPI_Get_count(&st, MPI_BYTE, &n);
+    buf.resize(static_cast<std::size_t>(n));
+    MPI_Recv(buf.data(), n, MPI_BYTE, st.MPI_SOURCE, st.MPI_TAG, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    const std::size_t src = static_cast<std::size_t>(st.MPI_SOURCE);
+    if (st.MPI_TAG == kTagRequest) {
+      const std::int64_t t = take();
+      MPI_Send(&t, 1, MPI_INT64_T, st.MPI_SOURCE, kTagTask, MPI_COMM_WORLD);
+      if (t < 0) {
+        ++stopped;
+      } else {
+        ++assigned_remote;
+        ++report.tasks_per_rank[src];
+      }
+    } else if (st.MPI_TAG == kTagResult) {
+      ++answered_remote;
+      try {  // a failure here (checkpoint not written, ...) must not leave the other ranks waiting
+        const auto [task, pixels] = UnpackResult(buf, plan.first_row, plan.rows_per_task, maps);
+        report.pixels_per_rank[src] += pixels;
+        finished(task);
+      } catch (const std::exception& e) {
+        if (failure.empty()) failure = std::string("rank 0: ") + e.what();
+      }
+    } else if (st.MPI_TAG == kTagError) {
+      ++answered_remote;
+      if (failure.empty()) failure.assign(buf.begin(), buf.end());
+    }
+  };
+  auto serve = [&] {
+    int flag = 0;
+    MPI_Status st;
+    while (true) {
+      MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &st);
+      if (!flag) break;
+      handle(st);
+    }
+  };
+
+  CubeTile tile, row;
+  while (true) {
+    serve();
+    if (run.cancel && run.cancel->load()) cancelled = true;
+    if (self_compute) {
+      const long t = take();
+      if (t >= 0) {
+        try {
+          // Row by row, answering the other ranks in between: they never wait longer than one row.
+          reader.ReadRows(plan.Begin(t), plan.Rows(t), tile);
+          for (long y = 0; y < plan.Rows(t); ++y) {
+            CopyRows(tile, y, 1, row);
+            engine.Compute(row, maps);
+            serve();
+          }
+          ++report.tasks_per_rank[0];
+          report.pixels_per_rank[0] += plan.Rows(t) * maps.nx;
+          finished(t);
+        } catch (const std::exception& e) {
+          if (failure.empty())
+            failure = "rank 0 of " + std::to_string(size) + " (cube " + RowsText(plan, t) + "): " + e.what();
+        }
+        continue;
+      }
+    }
+    if (stopped == size - 1 && answered_remote == assigned_remote) break;
+    // Nothing to compute here: wait for the next message without spinning a core.
+    int flag = 0;
+    MPI_Status st;
+    while (true) {
+      MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &st);
+      if (flag) break;
+      std::this_thread::sleep_for(std::chrono::microseconds(200));
+    }
+  }
+  if (!failure.empty() || cancelled) {
+    try {
+      save(true);  // what was finished is kept for --resume
+    } catch (const std::exception& e) {
+      if (failure.empty()) failure = std::string("rank 0: ") + e.what();
+    }
+  }
+  if (!failure.empty()) return kStatusFailed;
+  return cancelled ? kStatusCancelled : kStatusOk;
+}
+
+}  // namespace
+
+std::string DistributedMapOptions::Validate() const {
+  std::ostringstream m;
+  if (rows_per_task < 0) m << "rows per task = " << rows_per_task << " must be >= 0 (0 = automatic)";
+  else if (!(checkpoint_interval_s >= 0.0)) m << "checkpoint interval = " << checkpoint_interval_s << " s must be >= 0";
+  return m.str();
+}
+
+RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions& o, const FieldMapRunOptions& run,
+                                      const DistributedMapOptions& d, FieldMaps& maps, DistributedMapReport& report) {
+  const std::string problem = d.Validate();
+  if (!problem.empty()) throw OptionError(problem);
+  const int rank = Rank(), size = Size();
+  const CubeInfo& info = reader.info();
+  FieldMapEngine engine(info, o);  // the same checks on every rank
+
+  // Setup on rank 0 (checkpoint, spectral layout); its outcome goes to every rank.
+  int status = kStatusOk;
+  std::string message;
+  SpectralLayout layout;
+  std::int64_t first_row = 0;
+  if (rank == 0) {
+    try {
+      engine.InitMaps(info.ny, maps);
+      if (run.resume && !run.checkpoint_path.empty())
+        LoadFieldMapCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+      engine.ChooseLayout(reader);
+      layout = engine.layout();
+      first_row = maps.rows_done;
+    } catch (const std::exception& e) {
+      status = kStatusFailed;
+      message = e.what();
+    }
+  }
+  BroadcastStatus(status, message);
+  if (status != kStatusOk) throw DistributedRunError(message);
+  BroadcastLayout(layout);
+  MPI_Bcast(&first_row, 1, MPI_INT64_T, 0, MPI_COMM_WORLD);
+  engine.set_layout(layout);
+
+  const TaskPlan plan = PlanTasks(info.ny, static_cast<long>(first_row), reader.rows_per_tile(), size, d);
+  report.ranks = size;
+  report.first_row = plan.first_row;
+  report.rows_per_task = plan.rows_per_task;
+  report.tasks = plan.tasks;
+
+  if (rank == 0) status = RunCoordinator(reader, engine, plan, run, d, maps, report, message);
+  else RunWorker(reader, engine, plan);
+  BroadcastStatus(status, message);
+  if (status == kStatusFailed) throw DistributedRunError(message);
+  if (status == kStatusCancelled) return RunStatus::kCancelled;
+  if (rank == 0) {
+    maps.rows_done = info.ny;
+    CountMethods(info.ny, maps);
+    engine.Finish(maps);
+  }
+  return RunStatus::kComplete;
+}
+
+}  // namespace zeeline

@@ -1,0 +1,64 @@
+#include "mpi/mpi_backend.hpp"
+
+#include <mpi.h>
+
+#include <string>
+
+#include "cli/parallel.hpp"
+#include "mpi/distributed_maps.hpp"
+#include "zeeline/core/threads.hpp"
+
+namespace zeeline::cli {
+namespace {
+
+void Start(int& argc, char**& argv, ParallelInfo& info) {
+  int provided = 0;
+  MPI_Init_thread(&argc, &argv, MPI_THREAD_FUNNELED, &provided);  // only the main thread calls MPI
+  MPI_Comm_rank(MPI_COMM_WORLD, &info.rank);
+  MPI_Comm_size(MPI_COMM_WORLD, &info.size);
+  MPI_Comm node;
+  MPI_Comm_split_type(MPI_COMM_WORLD, MPI_COMM_TYPE_SHARED, 0, MPI_INFO_NULL, &node);
+  MPI_Comm_size(node, &info.ranks_on_node);
+  MPI_Comm_free(&node);
+}
+
+void Stop() {
+  int finalized = 0;
+  MPI_Finalized(&finalized);
+  if (!finalized) MPI_Finalize();
+}
+
+void Abort(int code) { MPI_Abort(MPI_COMM_WORLD, code); }
+
+RunStatus ComputeMaps(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,
+                      long rows_per_task, FieldMaps& maps, std::string& summary) {
+  DistributedMapOptions d;
+  d.rows_per_task = rows_per_task;
+  DistributedMapReport report;
+  RunStatus status;
+  try {
+    status = ComputeFieldMapsDistributed(reader, options, run, d, maps, report);
+  } catch (const DistributedRunError& e) {
+    throw CollectiveError(e.what());
+  }
+  if (Parallel().rank == 0) {
+    summary = "mpi: " + std::to_string(report.ranks) + " ranks x " + std::to_string(ResolveThreadCount(options.threads)) +
+              " threads, " + std::to_string(report.tasks) + " tasks of " + std::to_string(report.rows_per_task) +
+              " rows; pixels per rank";
+    for (long p : report.pixels_per_rank) summary += " " + std::to_string(p);
+    if (report.first_row > 0) summary += "; resumed at row " + std::to_string(report.first_row + 1);
+  }
+  return status;
+}
+
+#ifndef ZEELINE_MPIEXEC
+#define ZEELINE_MPIEXEC "mpirun"
+#endif
+
+const ParallelBackend kMpiBackend{Start, Stop, Abort, ComputeMaps, ZEELINE_MPIEXEC};
+
+}  // namespace
+
+void InstallMpiBackend() { InstallParallelBackend(&kMpiBackend); }
+
+}  // namespace zeeline::cli

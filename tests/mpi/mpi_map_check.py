@@ -1,0 +1,180 @@
+#!/usr/bin/python3
+"""`mpirun -np N zeeline map` against the one-process run, read back with astropy (Debian python3-astropy).
+
+* Bit-identical maps: every HDU's data (all maps, METHOD, QUALITY, AZIM_PICK) of -np 2 and -np 3 runs equal
+  the one-process run exactly (NaN where NaN), for wfa, me and auto with the azimuth disambiguation; -np 3
+  on 23 rows in tasks of 3 (8 tasks: they do not divide among 3 ranks, the last task has 2 rows).
+* A rank given no work: -np 3 on a 16-row cube in tasks of 8 rows; the run succeeds and the summary names a
+  rank with 0 pixels.
+* A failing rank: the cube tile-compressed with fpack (Debian libcfitsio-bin), the compressed bytes of one
+  spatial row overwritten, so that reading that row fails in cfitsio on whichever rank gets it. The run
+  exits 1 with one message naming the rank, the rows and the file; no map file is written; the checkpoint
+  (--resume) keeps the rows before the bad one. With the row repaired, --resume continues from there
+  ("resumed at row N", N > 1) and the maps equal the one-process run on the same compressed cube.
+* The build without MPI (zeeline_serial, the same objects with cli/parallel.cpp compiled without MPI) maps
+  alone exactly like zeeline, and refuses to run as 2 copies (exit 2, message says so, no output).
+* Other commands run on rank 0 only: `lande` under -np 2 prints its table once.
+* An existing output is not replaced without --overwrite under MPI either (exit 3, file untouched).
+Usage: /usr/bin/python3 mpi_map_check.py ZEELINE ZEELINE_SERIAL MPIEXEC
+"""
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+
+import numpy as np
+from astropy.io import fits
+
+ZEELINE, ZEELINE_SERIAL, MPIEXEC = sys.argv[1:4]
+SRC = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+LINE = ["--line", "FeI_6302", "--catalog", os.path.join(SRC, "demo_maps", "lines.csv")]
+# Shared-memory transport without the single-copy mechanism: works in containers that forbid ptrace.
+ENV = dict(os.environ, OMPI_MCA_btl_vader_single_copy_mechanism="none", OMPI_MCA_rmaps_base_oversubscribe="1")
+failures = []
+
+
+def check(cond, what):
+    if not cond:
+        failures.append(what)
+        print("FAIL:", what)
+
+
+def run(cmd, expect_rc=0):
+    p = subprocess.run(cmd, capture_output=True, text=True, env=ENV, timeout=600)
+    if p.returncode != expect_rc:
+        failures.append(f"{' '.join(cmd[:6])}...: exit {p.returncode}, expected {expect_rc}; "
+                        f"stderr={p.stderr.strip()[:600]}")
+        print("FAIL:", failures[-1])
+    return p
+
+
+def mpirun(n, binary=ZEELINE):
+    return [MPIEXEC, "--oversubscribe", "--allow-run-as-root", "-np", str(n), binary]
+
+
+def data_units(path):
+    with fits.open(path) as h:
+        return [(x.name, None if x.data is None else np.array(x.data)) for x in h]
+
+
+def same_maps(a, b, what):
+    ua, ub = data_units(a), data_units(b)
+    check([n for n, _ in ua] == [n for n, _ in ub], f"{what}: HDUs {[n for n, _ in ua]} vs {[n for n, _ in ub]}")
+    for (name, x), (_, y) in zip(ua, ub):
+        if x is None or y is None:
+            check(x is None and y is None, f"{what}: {name} has data in only one file")
+            continue
+        same = x.shape == y.shape and x.dtype == y.dtype and np.array_equal(x, y, equal_nan=True)
+        check(same, f"{what}: {name} differs from the one-process run")
+
+
+def corrupt_row(src, dst, y_bad):
+    """Copy of a tile-compressed cube with the compressed bytes of every tile of spatial row y_bad (0-based)
+    overwritten. fpack's default tiles are single rows of NAXIS1, so tile i holds row i % NAXIS2."""
+    with fits.open(src, disable_image_compression=True) as h:
+        hdr = h[1].header
+        data_at = h.fileinfo(1)["datLoc"]
+        nrow, row_bytes, ny = hdr["NAXIS2"], hdr["NAXIS1"], hdr["ZNAXIS2"]
+        heap_at = data_at + hdr.get("THEAP", nrow * row_bytes)
+        assert hdr["ZTILE1"] == hdr["ZNAXIS1"] and all(hdr[f"ZTILE{k}"] == 1 for k in (2, 3, 4))
+    raw = bytearray(open(src, "rb").read())
+    desc = np.frombuffer(bytes(raw), dtype=">i4", count=2 * nrow, offset=data_at).reshape(nrow, 2)
+    for i in range(nrow):
+        if i % ny == y_bad:
+            n, off = int(desc[i, 0]), int(desc[i, 1])
+            raw[heap_at + off:heap_at + off + n] = b"\x5a" * n
+    open(dst, "wb").write(bytes(raw))
+
+
+with tempfile.TemporaryDirectory() as tmp:
+    def path(name):
+        return os.path.join(tmp, name)
+
+    cube = path("cube.fits")
+    run([ZEELINE, "simulate", "--demo", "--nx", "16", "--ny", "23", *LINE, "--seed", "11", "-o", cube, "-q"])
+
+    # ---- bit-identical maps, one process vs 2 and 3 ranks
+    for method, extra in (("wfa", []), ("me", []), ("auto", ["--disambiguate", "--smooth-azimuth", "2"])):
+        common = [cube, *LINE, "--method", method, *extra, "-q"]
+        one = path(f"one_{method}.fits")
+        run([ZEELINE, "map", *common, "--threads", "2", "-o", one])
+        two = path(f"two_{method}.fits")
+        run([*mpirun(2), "map", *common, "--threads", "1", "-o", two])
+        three = path(f"three_{method}.fits")
+        p = run([*mpirun(3), "map", *common[:-1], "--threads", "1", "--rows-per-task", "3", "-o", three])
+        check("8 tasks of 3 rows" in p.stdout, f"{method} -np 3: summary {p.stdout.strip()[-200:]!r}")
+        for f, label in ((two, "-np 2"), (three, "-np 3")):
+            if os.path.exists(one) and os.path.exists(f):
+                same_maps(one, f, f"{method} {label}")
+            else:
+                check(False, f"{method} {label}: a map file is missing")
+    with fits.open(path("three_auto.fits")) as h:
+        counts = np.bincount(h["METHOD"].data.ravel(), minlength=5)
+        check(counts[1] > 0 and counts[4] > 0, f"auto should mix wfa and me pixels here: METHOD counts {counts}")
+        check("AZIM_PICK" in [x.name for x in h], "auto --disambiguate: no AZIM_PICK map")
+
+    # ---- a rank with nothing to do
+    tiny = path("tiny.fits")
+    run([ZEELINE, "simulate", "--demo", "--nx", "16", "--ny", "16", *LINE, "--seed", "5", "-o", tiny, "-q"])
+    run([ZEELINE, "map", tiny, *LINE, "--method", "auto", "-o", path("tiny_one.fits"), "-q"])
+    p = run([*mpirun(3), "map", tiny, *LINE, "--method", "auto", "--threads", "1", "--rows-per-task", "8",
+             "-o", path("tiny_three.fits")])
+    summary = [l for l in p.stdout.splitlines() if l.startswith("mpi:")]
+    check(len(summary) == 1 and " 0" in summary[0].split("pixels per rank")[-1] + " ",
+          f"-np 3 on 2 tasks: summary {summary}")
+    if os.path.exists(path("tiny_three.fits")):
+        same_maps(path("tiny_one.fits"), path("tiny_three.fits"), "-np 3 on 2 tasks")
+
+    # ---- a failing rank, then --resume
+    packed = path("packed.fits")
+    fp = subprocess.run(["fpack", "-g", "-q", "0", "-O", packed, cube], capture_output=True, text=True)
+    check(fp.returncode == 0 and os.path.exists(packed), f"fpack failed: {fp.stderr.strip()}")
+    if os.path.exists(packed):
+        tiles = ["--tile-mib", "0.05"]  # one-row reader tiles: the spectral window comes from row 1 only
+        ref = path("packed_one.fits")
+        run([ZEELINE, "map", packed, *LINE, "--method", "wfa", *tiles, "-o", ref, "-q"])
+        bad = path("bad.fits")
+        corrupt_row(packed, bad, 13)  # 0-based row 13 = FITS row 14, in task 5 (rows 13..15)
+        out = path("bad_maps.fits")
+        args = ["map", bad, *LINE, "--method", "wfa", *tiles, "--threads", "1", "--rows-per-task", "3", "--resume",
+                "-o", out]
+        p = run([*mpirun(3), *args], expect_rc=1)
+        errors = [l for l in p.stderr.splitlines() if l.startswith("zeeline: error")]
+        check(len(errors) == 1, f"failing rank: expected one error line, got {errors}")
+        if errors:
+            check("rank " in errors[0] and "bad.fits" in errors[0] and "rows 13..15" in errors[0],
+                  f"failing rank: message should name the rank, the file and the rows: {errors[0]}")
+        check(not os.path.exists(out), "failing rank: a map file was written")
+        check(os.path.exists(out + ".checkpoint"), "failing rank: no checkpoint kept for --resume")
+        shutil.copyfile(packed, bad)  # repaired: same size and name, so the checkpoint matches
+        p = run([*mpirun(3), *args])
+        check("resumed at row 13" in p.stdout, f"--resume under MPI: {p.stdout.strip()[-200:]!r}")
+        check(not os.path.exists(out + ".checkpoint"), "--resume: checkpoint left after success")
+        if os.path.exists(out):
+            same_maps(ref, out, "resumed -np 3")
+
+    # ---- the build without MPI
+    alone = path("alone.fits")
+    run([ZEELINE_SERIAL, "map", cube, *LINE, "--method", "auto", "-o", alone, "-q"])
+    run([ZEELINE, "map", cube, *LINE, "--method", "auto", "-o", path("alone_ref.fits"), "-q"])
+    if os.path.exists(alone):
+        same_maps(path("alone_ref.fits"), alone, "zeeline_serial")
+    refused = path("refused.fits")
+    p = run([*mpirun(2, ZEELINE_SERIAL), "map", cube, *LINE, "-o", refused], expect_rc=2)
+    check("built without MPI" in p.stderr, f"zeeline_serial under mpirun: {p.stderr.strip()[:300]}")
+    check(not os.path.exists(refused), "zeeline_serial under mpirun wrote an output")
+
+    # ---- other commands on rank 0 only; outputs never replaced silently
+    p = run([*mpirun(2), "lande", "5D4"])
+    check(p.stdout.count("5D4") == 1, f"lande under -np 2 should print once: {p.stdout!r}")
+    existing = path("two_wfa.fits")
+    before = open(existing, "rb").read() if os.path.exists(existing) else b""
+    p = run([*mpirun(2), "map", cube, *LINE, "--method", "wfa", "-o", existing], expect_rc=3)
+    check("exists" in p.stderr, f"existing output under MPI: {p.stderr.strip()[:300]}")
+    check(os.path.exists(existing) and open(existing, "rb").read() == before, "existing output was changed")
+
+if failures:
+    print(f"{len(failures)} failure(s)")
+    sys.exit(1)
+print("mpi map checks passed")
