@@ -414,7 +414,7 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   cmd->add_option("-o,--output", a->output, "output map file (FITS)")->required();
   AddMapComputeOptions(cmd, *a);
   cmd->add_option("--rows-per-task", a->rows_per_task,
-                  "under mpirun: spatial rows per unit of work handed to a rank (0 = about 8 units per rank; docs/scaling.md)")
+                  "under mpirun: spatial rows per unit of work handed to a rank (0 = guided: large first, small last; docs/scaling.md)")
       ->capture_default_str();
   cmd->add_option("--png", a->png_dir, "also write quicklook PNGs into this directory");
   cmd->add_flag("--overwrite", a->overwrite, "replace an existing output file");

@@ -110,12 +110,47 @@ void PackResult(long task, const FieldMaps& part, std::vector<char>& buf) {
 }
 
 // Places a packed result into the whole-cube maps at the task's first row; returns the task and its pixels.
-std::pair<long, long> UnpackResult(const std::vector<char>& buf, long first_row, long rows_per_task, FieldMaps& maps) {
+struct TaskPlan {
+  long first_row = 0, ny = 0, tasks = 0, min_rows = 0, max_rows = 0;
+  std::vector<long> begin;  ///< first row of each task, then ny
+  long Begin(long t) const { return begin[static_cast<std::size_t>(t)]; }
+  long Rows(long t) const { return begin[static_cast<std::size_t>(t) + 1] - Begin(t); }
+};
+
+// Tasks in row order. A given size: all of it. Automatic: guided sizes, a quarter of the remaining rows'
+// share per rank, between 1/32 of a rank's share and one reader tile: large tasks first (few messages),
+// small ones last (the ranks finish together). Fixed by the row count alone, so every rank agrees.
+TaskPlan PlanTasks(long ny, long first_row, long rows_per_tile, int ranks, const DistributedMapOptions& d) {
+  TaskPlan plan;
+  plan.first_row = first_row;
+  plan.ny = ny;
+  const long todo = ny - first_row;
+  const long ceiling = std::max(rows_per_tile, 1L);
+  const long floor_rows = std::min(ceiling, std::max(1L, (todo + 32L * ranks - 1) / (32L * ranks)));
+  for (long y = first_row; y < ny;) {
+    plan.begin.push_back(y);
+    const long remaining = ny - y;
+    long rows = d.rows_per_task > 0 ? d.rows_per_task
+                                    : std::clamp((remaining + 4L * ranks - 1) / (4L * ranks), floor_rows, ceiling);
+    rows = std::min(rows, remaining);
+    plan.min_rows = plan.min_rows ? std::min(plan.min_rows, rows) : rows;
+    plan.max_rows = std::max(plan.max_rows, rows);
+    y += rows;
+  }
+  plan.tasks = static_cast<long>(plan.begin.size());
+  plan.begin.push_back(ny);
+  if (d.rows_per_task > 0) plan.min_rows = plan.max_rows = d.rows_per_task;  // the last one may be shorter
+  return plan;
+}
+
+std::pair<long, long> UnpackResult(const std::vector<char>& buf, const TaskPlan& plan, FieldMaps& maps) {
   std::int64_t header[kHeaderWords];
   const char* p = Take(buf.data(), header, kHeaderWords);
   const long task = static_cast<long>(header[0]);
   const std::size_t np = static_cast<std::size_t>(header[1]);
-  const std::size_t at = static_cast<std::size_t>((first_row + task * rows_per_task) * maps.nx);
+  if (task < 0 || task >= plan.tasks)
+    throw DistributedRunError("internal error: a result message names task " + std::to_string(task));
+  const std::size_t at = static_cast<std::size_t>(plan.Begin(task) * maps.nx);
   const std::size_t expected = kHeaderWords * sizeof(std::int64_t) +
                                np * (kSlotCount * sizeof(float) + sizeof(std::int16_t) + sizeof(std::int32_t));
   if (buf.size() != expected || at + np > maps.method.size())
@@ -126,27 +161,6 @@ std::pair<long, long> UnpackResult(const std::vector<char>& buf, long first_row,
   p = Take(p, maps.method.data() + at, np);
   Take(p, maps.quality.data() + at, np);
   return {task, static_cast<long>(np)};
-}
-
-struct TaskPlan {
-  long first_row = 0, rows_per_task = 1, tasks = 0, ny = 0;
-  long Begin(long t) const { return first_row + t * rows_per_task; }
-  long Rows(long t) const { return std::min(rows_per_task, ny - Begin(t)); }
-};
-
-TaskPlan PlanTasks(long ny, long first_row, long rows_per_tile, int ranks, const DistributedMapOptions& d) {
-  TaskPlan plan;
-  plan.first_row = first_row;
-  plan.ny = ny;
-  const long todo = ny - first_row;
-  if (d.rows_per_task > 0) {
-    plan.rows_per_task = d.rows_per_task;
-  } else {
-    const long target_tasks = 8L * ranks;
-    plan.rows_per_task = std::clamp((todo + target_tasks - 1) / target_tasks, 1L, std::max(rows_per_tile, 1L));
-  }
-  plan.tasks = todo > 0 ? (todo + plan.rows_per_task - 1) / plan.rows_per_task : 0;
-  return plan;
 }
 
 std::string RowsText(const TaskPlan& plan, long t) {
@@ -251,7 +265,7 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
     } else if (st.MPI_TAG == kTagResult) {
       ++answered_remote;
       try {  // a failure here (checkpoint not written, ...) must not leave the other ranks waiting
-        const auto [task, pixels] = UnpackResult(buf, plan.first_row, plan.rows_per_task, maps);
+        const auto [task, pixels] = UnpackResult(buf, plan, maps);
         report.pixels_per_rank[src] += pixels;
         finished(task);
       } catch (const std::exception& e) {
@@ -362,7 +376,8 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
   const TaskPlan plan = PlanTasks(info.ny, static_cast<long>(first_row), reader.rows_per_tile(), size, d);
   report.ranks = size;
   report.first_row = plan.first_row;
-  report.rows_per_task = plan.rows_per_task;
+  report.min_rows_per_task = plan.min_rows;
+  report.max_rows_per_task = plan.max_rows;
   report.tasks = plan.tasks;
 
   if (rank == 0) status = RunCoordinator(reader, engine, plan, run, d, maps, report, message);

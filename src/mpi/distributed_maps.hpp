@@ -1,7 +1,8 @@
 // mpi/distributed_maps.hpp -- field maps of one cube computed by all ranks of an MPI run (built only with
 // ZEELINE_WITH_MPI; the CLI reaches it through cli/parallel.hpp).
 //
-// Work: the rows still to do, [first_row, ny), are cut into tasks of rows_per_task whole spatial rows.
+// Work: the rows still to do, [first_row, ny), are cut into tasks of whole spatial rows: rows_per_task
+// each, or by default guided sizes (large first, small last, at most one reader tile; see PlanTasks).
 // Rank 0 hands the tasks out in row order, one at a time, to whichever rank asks (dynamic: a
 // Milne-Eddington pixel costs several times a weak-field one, so equal shares would leave ranks idle);
 // every rank asks for its next task while it works on the current one, so it never waits for an answer.
@@ -37,7 +38,7 @@ namespace zeeline {
 constexpr int kCoordinatorComputesUpTo = 8;
 
 struct DistributedMapOptions {
-  long rows_per_task = 0;              ///< 0 = automatic: about 8 tasks per rank, at most one reader tile
+  long rows_per_task = 0;              ///< 0 = automatic: guided sizes, at most one reader tile
   double checkpoint_interval_s = 10.0; ///< least time between two checkpoint writes (0 = after every task)
 
   std::string Validate() const;
@@ -47,7 +48,7 @@ struct DistributedMapOptions {
 struct DistributedMapReport {
   int ranks = 1;
   long first_row = 0;       ///< rows before this came from the checkpoint (--resume)
-  long rows_per_task = 0;
+  long min_rows_per_task = 0, max_rows_per_task = 0;
   long tasks = 0;
   std::vector<long> tasks_per_rank;   ///< rank 0 only
   std::vector<long> pixels_per_rank;  ///< rank 0 only

@@ -43,7 +43,8 @@ RunStatus ComputeMaps(CubeReader& reader, const FieldMapOptions& options, const 
   }
   if (Parallel().rank == 0) {
     summary = "mpi: " + std::to_string(report.ranks) + " ranks x " + std::to_string(ResolveThreadCount(options.threads)) +
-              " threads, " + std::to_string(report.tasks) + " tasks of " + std::to_string(report.rows_per_task) +
+              " threads, " + std::to_string(report.tasks) + " tasks of " + std::to_string(report.max_rows_per_task) +
+              (report.min_rows_per_task < report.max_rows_per_task ? " down to " + std::to_string(report.min_rows_per_task) : "") +
               " rows; pixels per rank";
     for (long p : report.pixels_per_rank) summary += " " + std::to_string(p);
     if (report.first_row > 0) summary += "; resumed at row " + std::to_string(report.first_row + 1);

@@ -1,0 +1,137 @@
+// FieldMapEngine, the pieces ComputeFieldMaps is made of (the MPI driver, src/mpi/, hands out row blocks
+// through it): blocks of rows computed in any order into maps of their own give, once placed, exactly the
+// maps of one ComputeFieldMaps run — the property the distributed map relies on (tests/mpi checks the whole
+// program under mpirun). Cubes are written with cfitsio (tests/io/io_test_util.hpp) from the independent
+// thin-line model (tests/maps/thin_line_model.hpp).
+#include "zeeline/maps/field_maps.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstring>
+#include <random>
+
+#include <gtest/gtest.h>
+
+#include "io/io_test_util.hpp"
+#include "maps/thin_line_model.hpp"
+#include "zeeline/core/errors.hpp"
+
+namespace zeeline {
+namespace {
+
+constexpr double kRest = 630.25;  // nm, air
+constexpr int kNx = 5, kNy = 7, kNw = 61;
+
+// Fields from 30 G (weak) to 2400 G (resolved), so auto uses more than one method; a NaN pixel at (2, 3).
+void WriteCube(const std::string& path) {
+  const ZeemanPattern p = ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0"), LandeOptions{2.0, 1.0});
+  std::vector<testing::Spectra> pixels;
+  std::mt19937_64 rng(17);
+  for (long y = 0; y < kNy; ++y)
+    for (long x = 0; x < kNx; ++x) {
+      testing::ThinLine l;
+      l.rest_nm = kRest;
+      l.field_gauss = 30.0 + 70.0 * static_cast<double>((y * kNx + x) * (y * kNx + x)) / 10.0;
+      l.inclination_deg = 20.0 + 20.0 * static_cast<double>(y);
+      l.azimuth_deg = 10.0 + 30.0 * static_cast<double>(x);
+      auto s = testing::MakeThinLine(l, p, testing::Grid(kRest, 0.03, kNw));
+      testing::AddNoise(s, 1e-4, rng);
+      pixels.push_back(std::move(s));
+    }
+  test::CubeSpec c;
+  c.na = kNx;
+  c.nb = kNy;
+  c.nw = kNw;
+  c.bitpix = -64;
+  c.spectral_cunit = "nm";
+  c.spectral_crval = kRest - 0.03;
+  c.spectral_cdelt = 0.06 / (kNw - 1);
+  c.value = [pixels](long a, long b, long s, long w) {
+    if (a == 2 && b == 3 && w == 7) return std::nan("");
+    const auto& px = pixels[static_cast<std::size_t>(b * kNx + a)];
+    const std::vector<double>* v[4] = {&px.I, &px.Q, &px.U, &px.V};
+    return (*v[s])[static_cast<std::size_t>(w)];
+  };
+  test::WriteCube(path, c);
+}
+
+FieldMapOptions Options(MapMethod m) {
+  FieldMapOptions o;
+  o.method = m;
+  o.rest_wavelength_nm = kRest;
+  o.pattern = ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0"), LandeOptions{2.0, 1.0});
+  o.noise_rel = 1e-4;
+  o.threads = 2;
+  o.disambiguate = m != MapMethod::kCentreOfGravity;
+  return o;
+}
+
+bool SameBits(const std::vector<float>& a, const std::vector<float>& b) {
+  return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(float)) == 0;
+}
+
+TEST(FieldMapEngine, RowBlocksInAnyOrderGiveTheMapsOfOneRun) {
+  test::TempDir dir;
+  const std::string path = dir.File("cube.fits");
+  WriteCube(path);
+  CubeReadOptions read;
+  read.max_tile_mib = 1e-6;  // one row per tile in the one-process run: its layout comes from row 1
+  for (MapMethod m : {MapMethod::kWeakField, MapMethod::kMilneEddington, MapMethod::kAuto}) {
+    const FieldMapOptions o = Options(m);
+    FieldMaps one;
+    {
+      CubeReader reader(path, read);
+      ASSERT_EQ(ComputeFieldMaps(reader, o, {}, one), RunStatus::kComplete);
+    }
+    // Blocks of 3, 1 and 3 rows, computed last block first, each into maps of its own, then placed.
+    CubeReader reader(path, read);
+    FieldMapEngine engine(reader.info(), o);
+    engine.ChooseLayout(reader);
+    FieldMaps whole;
+    engine.InitMaps(kNy, whole);
+    const long blocks[][2] = {{4, 3}, {3, 1}, {0, 3}};
+    for (const auto& b : blocks) {
+      CubeTile tile;
+      reader.ReadRows(b[0], b[1], tile);
+      FieldMaps part;
+      engine.InitMaps(b[1], part);
+      engine.Compute(tile, part, b[0]);
+      const std::size_t at = static_cast<std::size_t>(b[0] * kNx);
+      for (int s = 0; s < kSlotCount; ++s)
+        std::copy(part.slots[s].begin(), part.slots[s].end(), whole.slots[s].begin() + static_cast<long>(at));
+      std::copy(part.method.begin(), part.method.end(), whole.method.begin() + static_cast<long>(at));
+      std::copy(part.quality.begin(), part.quality.end(), whole.quality.begin() + static_cast<long>(at));
+    }
+    engine.Finish(whole);
+    for (int s = 0; s < kSlotCount; ++s) EXPECT_TRUE(SameBits(whole.slots[s], one.slots[s])) << MapSlotName(s);
+    EXPECT_EQ(whole.method, one.method);
+    EXPECT_EQ(whole.quality, one.quality);
+    EXPECT_EQ(whole.disambiguation, one.disambiguation);
+    EXPECT_FALSE(one.disambiguation.empty());
+    if (m == MapMethod::kAuto) {
+      EXPECT_GT(one.method_counts[static_cast<int>(MapMethod::kWeakField)], 0);
+      EXPECT_GT(one.method_counts[static_cast<int>(MapMethod::kMilneEddington)], 0);
+    }
+  }
+}
+
+TEST(FieldMapEngine, RefusesRowsOutsideItsMapsAndWorkWithoutALayout) {
+  test::TempDir dir;
+  const std::string path = dir.File("cube.fits");
+  WriteCube(path);
+  CubeReader reader(path);
+  const FieldMapOptions o = Options(MapMethod::kWeakField);
+  FieldMapEngine engine(reader.info(), o);
+  CubeTile tile;
+  reader.ReadRows(2, 2, tile);
+  FieldMaps part;
+  engine.InitMaps(2, part);
+  EXPECT_THROW(engine.Compute(tile, part, 2), OptionError);  // no layout chosen yet
+  engine.ChooseLayout(reader);
+  EXPECT_THROW(engine.Compute(tile, part, 3), OptionError);  // rows 2..3 start before the maps' row 3
+  EXPECT_THROW(engine.Compute(tile, part, 1), OptionError);  // rows 2..3 end after the maps' rows 1..2
+  EXPECT_NO_THROW(engine.Compute(tile, part, 2));
+}
+
+}  // namespace
+}  // namespace zeeline
