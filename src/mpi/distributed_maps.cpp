@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cstring>
+#include <limits>
 #include <sstream>
 #include <thread>
 
@@ -107,6 +108,9 @@ void PackResult(long task, const FieldMaps& part, std::vector<char>& buf) {
   for (const auto& s : part.slots) Append(buf, s.data(), np);
   Append(buf, part.method.data(), np);
   Append(buf, part.quality.data(), np);
+  if (buf.size() > static_cast<std::size_t>(std::numeric_limits<int>::max()))
+    throw OptionError("the maps of one task are " + std::to_string(buf.size() >> 20) +
+                      " MiB, more than one MPI message holds; use a smaller --rows-per-task");
 }
 
 // Places a packed result into the whole-cube maps at the task's first row; returns the task and its pixels.
