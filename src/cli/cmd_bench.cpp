@@ -45,7 +45,7 @@ constexpr double kLineNm = 630.2494;
 const char* const kLineArgs[] = {"--lower", "5P1", "--upper", "5D0", "--wavelength", "630.2494nm", "--frame", "air"};
 
 struct BenchArgs {
-  long nx = 100, ny = 100;
+  long nx = 150, ny = 150;  // 22 500 Milne-Eddington pixels: the launcher's start-up stays small beside them
   int points = 96;
   bool quick = false;
   std::string keep;  // directory for the bench files (kept); empty = a temporary one, removed
@@ -319,10 +319,14 @@ void RunBench(const BenchArgs& a) {
   Figure("rss.map_me_mib", me_run.peak_rss_mib, "MiB", "its peak resident memory");
 
   if (!BuiltWithMpi()) {
-    const std::pair<const char*, const char*> keys[] = {{"mpi.ranks1_s", "s"}, {"mpi.ranks2_s", "s"},
+    const std::pair<const char*, const char*> keys[] = {{"mpi.launch_s", "s"}, {"mpi.ranks1_s", "s"}, {"mpi.ranks2_s", "s"},
         {"mpi.ranks2_speedup", "x"}, {"mpi.ranks2_vs_process", "x"}, {"mpi.ranks1_cpu_s", "s"}, {"mpi.ranks2_cpu_s", "s"}};
     for (const auto& [key, unit] : keys) Figure(key, NAN, unit, "built without MPI");
   } else {
+    std::vector<std::string> launch = MpirunPrefix(2);
+    launch.insert(launch.end(), {self, "--version"});
+    Figure("mpi.launch_s", map_child(launch, "mpirun -np 2 zeeline --version").wall_s, "s",
+           "`mpirun -np 2 zeeline --version`: start-up and shut-down of two ranks doing nothing");
     std::vector<std::string> r1 = MpirunPrefix(1), r2 = MpirunPrefix(2);
     const auto me_args = MapArgs(self, cube, "me", 1, out);
     r1.insert(r1.end(), me_args.begin(), me_args.end());
