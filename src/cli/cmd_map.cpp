@@ -1,6 +1,8 @@
 // `zeeline map`: field maps from a Stokes cube (a thin layer over maps/field_maps.hpp and io/).
 #include <unistd.h>
 
+#include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -139,6 +141,7 @@ std::string JoinArgs(int argc, char** argv) {
 
 void RunMap(const MapArgs& a) {
   namespace fs = std::filesystem;
+  const auto t_start = std::chrono::steady_clock::now();
   if (a.output.empty()) throw OptionError("-o MAPS.fits is required");
   CheckOutputFile(a.output, a.overwrite, "-o");  // before any work (docs/cli.md, "Outputs")
   CheckOutputDirectory(a.png_dir, "--png");
@@ -205,6 +208,7 @@ void RunMap(const MapArgs& a) {
   }
   if (!IsOutputRank()) return;  // MPI: rank 0 gathered the maps and writes them
 
+  const auto t_write = std::chrono::steady_clock::now();
   const std::vector<ImageHdu> hdus = MapHdus(maps, o);
 
   FitsWriteOptions w;
@@ -226,6 +230,11 @@ void RunMap(const MapArgs& a) {
     throw OutputError(e.what());  // checked up front; this is a failure while writing (exit 3)
   }
   if (a.resume) fs::remove(run.checkpoint_path, ec);
+  const auto seconds = [](std::chrono::steady_clock::time_point t0, std::chrono::steady_clock::time_point t1) {
+    return std::chrono::duration<double>(t1 - t0).count();
+  };
+  const auto t_written = std::chrono::steady_clock::now();
+  const double total_s = seconds(t_start, t_written), write_s = seconds(t_write, t_written);
   std::vector<std::string> pngs;
   if (!a.png_dir.empty()) {
     QuicklookOptions q;
@@ -247,6 +256,17 @@ void RunMap(const MapArgs& a) {
                   static_cast<double>(maps.me_iterations) / static_cast<double>(maps.method_counts[4]));
     if (!ranks_summary.empty()) std::printf("%s\n", ranks_summary.c_str());
     if (!pngs.empty()) std::printf("quicklook: %s (and %zu per-map PNGs)\n", pngs.back().c_str(), pngs.size() - 1);
+    // Where the time went, up to the map file being written (docs/methods.md, "What the speed depends on").
+    // Reading runs on its own thread behind the estimators; only the part they waited for counts as
+    // reading time here, the hidden rest is shown in brackets.
+    const double pct = total_s > 0.0 ? 100.0 / total_s : 0.0;
+    const double other_s = std::max(total_s - maps.read_wait_seconds - maps.compute_seconds - write_s, 0.0);
+    std::printf("speed: %lld pixels in %.3f s = %.0f pixels/s; reading %.0f %%, computing %.0f %%, writing %.0f %%, "
+                "set-up %.0f %% (reading %.3f s in all, %.3f s of it behind the computation)\n",
+                static_cast<long long>(maps.nx * maps.ny), total_s,
+                total_s > 0.0 ? static_cast<double>(maps.nx * maps.ny) / total_s : 0.0, maps.read_wait_seconds * pct,
+                maps.compute_seconds * pct, write_s * pct, other_s * pct, maps.read_seconds,
+                std::max(maps.read_seconds - maps.read_wait_seconds, 0.0));
   }
 }
 

@@ -10,12 +10,20 @@ double CoreShapeRatio(double u) { return std::log(2.0 + u) / (1.0 + u); }
 double SaturationFromCoreShape(double ratio) {
   if (!(ratio < std::log(2.0))) return 0.0;
   if (!(ratio > CoreShapeRatio(1e3))) return 1e3;
-  double lo = 0.0, hi = 1e3;  // R decreases with u
-  for (int it = 0; it < 80; ++it) {
-    const double mid = 0.5 * (lo + hi);
-    (CoreShapeRatio(mid) > ratio ? lo : hi) = mid;
+  // R decreases monotonically with u: Newton steps on R(u) - ratio, R'(u) = (1/(2 + u) - R(u)) / (1 + u),
+  // kept inside the bracket [lo, hi] (a bisection step whenever Newton would leave it). Converges to full
+  // precision in ~6 evaluations where plain bisection needs ~60 (this runs once per map pixel).
+  double lo = 0.0, hi = 1e3, u = 1.0;
+  for (int it = 0; it < 100; ++it) {
+    const double r = CoreShapeRatio(u);
+    (r > ratio ? lo : hi) = u;
+    const double slope = (1.0 / (2.0 + u) - r) / (1.0 + u);
+    double next = u - (r - ratio) / slope;
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    if (std::fabs(next - u) <= 1e-15 * (1.0 + u) || hi - lo <= 1e-15 * (1.0 + u)) return next;
+    u = next;
   }
-  return 0.5 * (lo + hi);
+  return u;
 }
 
 LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_nm, double window) {

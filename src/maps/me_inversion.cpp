@@ -365,7 +365,7 @@ void MeInverter::Fit(const MeParameters& start, const std::array<double, 4>& f, 
     const auto pj = static_cast<MeParam>(j);
     x.Set(pj, o.free[j] ? Clamp(o, j, x.Get(pj)) : o.fixed_values.Get(pj));
   }
-  model_.Synthesize(w.wavelength_nm, x, w.model, &w.jacobian);
+  model_.Synthesize(w.wavelength_nm, x, w.model, &w.jacobian, &o.free);
   if (w.trial.rows() != w.model.rows()) w.trial.resize(w.model.rows(), 4);
   w.trial_jacobian.Resize(w.model.rows());
   double chi2 = Chi2(w.observed, w.model, f);
@@ -406,7 +406,7 @@ void MeInverter::Fit(const MeParameters& start, const std::array<double, 4>& f, 
     }
     FoldAndClamp(o, t);
     ++iterations;
-    model_.Synthesize(w.wavelength_nm, t, w.trial, &w.trial_jacobian);
+    model_.Synthesize(w.wavelength_nm, t, w.trial, &w.trial_jacobian, &o.free);
     const double chi2_t = Chi2(w.observed, w.trial, f);
     if (chi2_t < chi2) {
       const double rel = (chi2 - chi2_t) / std::max(chi2_t, 1e-300);
@@ -516,11 +516,11 @@ MeResult MeInverter::Invert(const PixelSpectrum& s, const ContinuumEstimate& c, 
   std::array<double, 4> f{};
   int n_data = 0;
   if (!LoadData(s, c, work, f, n_data)) return best;
+  const MeInversionOptions& o = options_;
   const MeParameters start = StartingPoint(hints, work);
   Fit(start, f, n_data, work, best);
   best.starts = 1;
   int total_iterations = best.iterations;
-  const MeInversionOptions& o = options_;
   for (int k = 0; k < o.max_restarts && best.chi2_reduced > o.restart_chi2; ++k) {
     MeParameters alt = start;
     switch (k) {

@@ -127,7 +127,8 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
           if (correct) {
             const double t = s.I[i] - s0;
             x = -k2 * (work.d2[i] - 2.0 * work.d1[i] * work.d1[i] / t);
-            xn = k2 * noise.noise_I * std::hypot(gain2, 4.0 * std::fabs(work.d1[i]) / t * gain1);
+            const double g1 = 4.0 * std::fabs(work.d1[i]) / t * gain1;  // finite, moderate: no hypot needed
+            xn = k2 * noise.noise_I * std::sqrt(gain2 * gain2 + g1 * g1);
           } else {
             second();
           }
@@ -143,9 +144,14 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
       }
       return false;
     };
+    work.x.resize(n);
     for (std::size_t i = win.begin; i < win.end; ++i) {
       double x = 0.0, xn = 0.0;
-      if (!regressor(i, x, xn)) continue;
+      if (!regressor(i, x, xn)) {
+        work.x[i] = std::nan("");
+        continue;
+      }
+      work.x[i] = x;
       sxx += x * x;
       sqx += s.Q[i] * x;
       sux += s.U[i] * x;
@@ -179,8 +185,8 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
       if (var_q > 0.0 && var_u > 0.0 && used > 2) {
         double chi2 = 0.0;
         for (std::size_t i = win.begin; i < win.end; ++i) {
-          double x = 0.0, xn = 0.0;
-          if (!regressor(i, x, xn)) continue;
+          const double x = work.x[i];
+          if (std::isnan(x)) continue;
           const double rq = s.Q[i] - x * aq, ru = s.U[i] - x * au;
           chi2 += rq * rq / var_q + ru * ru / var_u;
         }

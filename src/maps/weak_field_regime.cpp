@@ -42,6 +42,7 @@ WeakFieldRegime AssessWeakFieldRegime(const WeakFieldResult& w, const CentreOfGr
   a.saturated_textbook = w.has_btrans && a.saturation > o.saturated_above &&
                          (transverse == TransverseRegion::kWholeLine || transverse == TransverseRegion::kCore);
   a.weak = a.ratio_ok && a.v_consistent && a.qu_consistent;
+  if (!o.explain) return a;
   char buf[200];
   if (!std::isfinite(a.ratio)) {
     a.reason = "no line width could be measured";

@@ -160,7 +160,7 @@ PropagationMatrix MilneEddingtonModel::Propagation(double wavelength_nm, const M
 
 void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wavelength_nm,
                                      const MeParameters& p, StokesArray& stokes,
-                                     StokesJacobian* jacobian) const {
+                                     StokesJacobian* jacobian, const std::array<bool, kMeParamCount>* wanted) const {
   const Eigen::Index n = wavelength_nm.size();
   if (stokes.rows() != n) stokes.resize(n, 4);
   if (jacobian) jacobian->Resize(n);
@@ -172,7 +172,8 @@ void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wav
   const double inv_wd = 1.0 / wd;
   const double A = 0.5 * p.eta0;
   const double f = p.fill;
-  const bool need_nonmag = jacobian != nullptr || f != 1.0;
+  auto want = [wanted](MeParam q) { return wanted == nullptr || (*wanted)[static_cast<int>(q)]; };
+  const bool need_nonmag = f != 1.0 || (jacobian != nullptr && want(MeParam::kFill));
 
   const double g = p.inclination_deg * kRadPerDeg, chi = p.azimuth_deg * kRadPerDeg;
   const double sg = std::sin(g), cg = std::cos(g);
@@ -233,6 +234,7 @@ void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wav
     const Eigen::Matrix4d kinv = BuildK(e).inverse();
     const double scale = -mu * p.s1 * f;
     auto put = [&](MeParam which, const double de[7], double dn_deta) {
+      if (!want(which)) return;
       const Eigen::Vector4d dy = kinv * DkTimes(de, y);
       StokesArray& out = J[which];
       // non-magnetic: dI_n = -mu s1 yn^2 d(eta_n)
@@ -257,15 +259,21 @@ void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wav
     Elements(val, 0.5, ang, de);
     put(MeParam::kEta0, de, hn);
 
-    StokesArray& js0 = J[MeParam::kS0];
-    js0(k, 0) = 1.0;
-    js0(k, 1) = js0(k, 2) = js0(k, 3) = 0.0;
-    StokesArray& js1 = J[MeParam::kS1];
-    js1(k, 0) = mu * (f * y[0] + (1.0 - f) * yn);
-    for (int s = 1; s < 4; ++s) js1(k, s) = mu * f * y[s];
-    StokesArray& jf = J[MeParam::kFill];
-    jf(k, 0) = mag[0] - i_nonmag;
-    for (int s = 1; s < 4; ++s) jf(k, s) = mag[s];
+    if (want(MeParam::kS0)) {
+      StokesArray& js0 = J[MeParam::kS0];
+      js0(k, 0) = 1.0;
+      js0(k, 1) = js0(k, 2) = js0(k, 3) = 0.0;
+    }
+    if (want(MeParam::kS1)) {
+      StokesArray& js1 = J[MeParam::kS1];
+      js1(k, 0) = mu * (f * y[0] + (1.0 - f) * yn);
+      for (int s = 1; s < 4; ++s) js1(k, s) = mu * f * y[s];
+    }
+    if (want(MeParam::kFill)) {
+      StokesArray& jf = J[MeParam::kFill];
+      jf(k, 0) = mag[0] - i_nonmag;
+      for (int s = 1; s < 4; ++s) jf(k, s) = mag[s];
+    }
   }
 }
 

@@ -61,6 +61,25 @@ void ExpectTileMatches(const CubeSpec& spec, const CubeInfo& info, const CubeTil
   (void)info;
 }
 
+// The same check for ReadRowsRaw + RawCubeTile::Gather (the map runner's path): rows [y_begin, y_begin + y_count).
+void ExpectRawRowsMatch(const CubeSpec& spec, CubeReader& reader, long y_begin, long y_count, bool spectral_reversed) {
+  RawCubeTile raw;
+  reader.ReadRowsRaw(y_begin, y_count, raw);
+  CubeTile t;
+  t.y_begin = raw.y_begin;
+  t.y_count = raw.y_count;
+  t.nx = raw.nx;
+  t.n_stokes = raw.n_stokes;
+  t.n_wavelength = raw.n_wavelength;
+  ASSERT_EQ(t.y_begin, y_begin);
+  ASSERT_EQ(t.y_count, y_count);
+  const long rec = t.n_stokes * t.n_wavelength;
+  t.data.resize(static_cast<std::size_t>(raw.n_pixels() * rec));
+  for (long p = 0; p < raw.n_pixels(); ++p)
+    EXPECT_EQ(raw.Gather(p, t.data.data() + p * rec), 0u);  // all samples finite
+  ExpectTileMatches(spec, reader.info(), t, spectral_reversed);
+}
+
 std::string OrderName(const std::array<test::Role, 4>& o) {
   std::string s;
   for (auto r : o) s += "abws"[r];
@@ -107,6 +126,29 @@ TEST(CubeReader, ReadsAll24AxisOrdersIntoPixelStokesWavelengthLayout) {
   EXPECT_EQ(count, 24);
 }
 
+// The raw read takes whole contiguous runs of the file with fits_read_img when they are long (>= 4096
+// samples) and fits_read_subset otherwise: both paths, every axis order, whole and partial row blocks.
+TEST(CubeReader, RawRowsGatherToTheSameLayoutInAll24AxisOrders) {
+  TempDir dir;
+  std::array<test::Role, 4> order = {test::kA, test::kB, test::kW, test::kS};
+  std::sort(order.begin(), order.end());
+  do {
+    CubeSpec spec;
+    spec.order = order;
+    spec.na = 9;
+    spec.nb = 7;
+    spec.nw = 70;  // 17640 samples: values stay exact in float32
+    const std::string path = dir.File("raw_" + OrderName(order) + ".fits");
+    WriteCube(path, spec);
+    CubeReader reader(path);
+    SCOPED_TRACE(OrderName(order));
+    const long ny = reader.info().ny;
+    ExpectRawRowsMatch(spec, reader, 0, ny, false);
+    ExpectRawRowsMatch(spec, reader, 1, 2, false);
+    ExpectRawRowsMatch(spec, reader, ny - 1, 1, false);
+  } while (std::next_permutation(order.begin(), order.end()));
+}
+
 struct BitpixCase {
   int bitpix;
   double bscale, bzero;
@@ -134,6 +176,7 @@ TEST_P(CubeReaderBitpix, AppliesBscaleBzeroAndReturnsPhysicalValues) {
   CubeTileF ftile;
   reader.ReadRows(1, 2, ftile);
   ExpectTileMatches(spec, reader.info(), ftile, false);
+  ExpectRawRowsMatch(spec, reader, 1, 2, false);
 }
 
 INSTANTIATE_TEST_SUITE_P(AllBitpix, CubeReaderBitpix,
@@ -188,6 +231,7 @@ TEST(CubeReader, FrequencyAxisIsReversedToIncreasingWavelength) {
   CubeTile tile;
   reader.ReadRows(0, info.ny, tile);
   ExpectTileMatches(spec, info, tile, true);
+  ExpectRawRowsMatch(spec, reader, 0, info.ny, true);
 }
 
 TEST(CubeReader, ConvertsGridToVacuumOnRequest) {
@@ -222,6 +266,12 @@ TEST(CubeReader, SubsetOfStokesAndVSignFlip) {
   reader.ReadRows(0, 1, tile);
   EXPECT_EQ(tile.Spectrum(1, 0)[2], test::ExpectedValue(spec, 1, 0, 0, 2));
   EXPECT_EQ(tile.Spectrum(1, 1)[2], -test::ExpectedValue(spec, 1, 0, 1, 2));
+  RawCubeTile raw;
+  reader.ReadRowsRaw(0, 1, raw);
+  std::vector<double> spectra(static_cast<std::size_t>(2 * spec.nw));
+  raw.Gather(1, spectra.data());
+  EXPECT_EQ(spectra[2], test::ExpectedValue(spec, 1, 0, 0, 2));
+  EXPECT_EQ(spectra[static_cast<std::size_t>(spec.nw) + 2], -test::ExpectedValue(spec, 1, 0, 1, 2));
 }
 
 TEST(CubeReader, ExtensionByNumberAndByExtnameAndFirstImageByDefault) {
@@ -463,6 +513,12 @@ TEST(CubeReaderBadInput, BlankIntegerPixelsBecomeNan) {
   reader.ReadRows(0, reader.info().ny, tile);
   EXPECT_TRUE(std::isnan(tile.Spectrum(2 * 3 + 1, 0)[0]));
   EXPECT_EQ(tile.nonfinite[2 * 3 + 1], 1u);
+  RawCubeTile raw;
+  reader.ReadRowsRaw(0, reader.info().ny, raw);
+  std::vector<double> spectra(static_cast<std::size_t>(4 * spec.nw));
+  EXPECT_EQ(raw.Gather(2 * 3 + 1, spectra.data()), 1u);
+  EXPECT_TRUE(std::isnan(spectra[0]));
+  EXPECT_EQ(raw.Gather(0, spectra.data()), 0u);
 }
 
 }  // namespace

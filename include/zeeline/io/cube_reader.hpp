@@ -122,6 +122,29 @@ struct CubeTileT {
 using CubeTile = CubeTileT<double>;
 using CubeTileF = CubeTileT<float>;
 
+/// A block of whole spatial rows exactly as cfitsio delivers it: FITS axis order, no reorder, samples as
+/// float for float32 and 8/16-bit integer data (exact) and as double otherwise (BSCALE/BZERO applied, BLANK
+/// -> NaN). Gather() copies one pixel's spectra into the pixel-major order of CubeTile. For a consumer that
+/// visits every pixel once (the map runner) this replaces the reorder pass of ReadRows: the gather runs in
+/// the consumer's cache and threads, and the tile holds 4 bytes per sample instead of 8.
+struct RawCubeTile {
+  long y_begin = 0, y_count = 0, nx = 0;
+  int n_stokes = 0;
+  long n_wavelength = 0;
+  bool as_float = true;        ///< samples in data_f (else data_d)
+  std::vector<float> data_f;
+  std::vector<double> data_d;
+  long stride_x = 0, stride_y = 0, stride_spectral = 0, stride_stokes = 0;  ///< in samples
+  bool spectral_reversed = false;  ///< the file stores wavelengths decreasing
+  int v_index = -1;                ///< Stokes index of V (-1: none)
+  double v_sign = 1.0;
+
+  long n_pixels() const { return y_count * nx; }
+  /// out[s * n_wavelength + w] (wavelengths increasing, V times v_sign) for pixel p = (y - y_begin) * nx + x,
+  /// the same values ReadRows gives; returns the number of NaN/Inf samples of the pixel.
+  std::uint32_t Gather(long pixel, double* out) const;
+};
+
 class CubeReader {
  public:
   /// Opens and validates the cube; throws FitsError (file/HDU/keyword in the message) or OptionError.
@@ -139,6 +162,9 @@ class CubeReader {
   /// Reads rows [y_begin, y_begin + y_count) into `tile` (buffers are reused).
   template <class T>
   void ReadRows(long y_begin, long y_count, CubeTileT<T>& tile);
+
+  /// Reads rows [y_begin, y_begin + y_count) without reordering (see RawCubeTile; buffers are reused).
+  void ReadRowsRaw(long y_begin, long y_count, RawCubeTile& tile);
 
   /// Sequential iteration: fills the next tile, returns false after the last one.
   template <class T>

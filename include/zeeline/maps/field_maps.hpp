@@ -108,6 +108,9 @@ struct FieldMaps {
   std::int64_t method_counts[5] = {0, 0, 0, 0, 0};  ///< pixels per MapMethod code
   std::vector<std::int16_t> disambiguation;         ///< DisambiguationFlag per pixel; empty unless disambiguated
   std::int64_t me_iterations = 0;                   ///< LM trial steps summed over the ME pixels
+  /// Wall-clock seconds of this run (not kept in checkpoints): reading tiles (cfitsio + reorder) in all,
+  /// the part of it the estimators waited for (the rest ran behind the computation), and the estimators.
+  double read_seconds = 0.0, read_wait_seconds = 0.0, compute_seconds = 0.0;
 };
 
 struct FieldMapRunOptions {
@@ -147,6 +150,8 @@ class FieldMapEngine {
   /// The layout ComputeFieldMaps uses: from the spatially averaged I of the reader's first tile (so a
   /// resumed or distributed run makes the same choices). Either this or set_layout before Compute.
   void ChooseLayout(CubeReader& reader);
+  /// The same from the reader's first tile (rows [0, rows_per_tile)) when the caller has read it already.
+  void ChooseLayout(const RawCubeTile& first_tile);
   void set_layout(SpectralLayout layout) { layout_ = std::move(layout); }
   const SpectralLayout& layout() const { return layout_; }
 
@@ -156,10 +161,17 @@ class FieldMapEngine {
   /// Computes every pixel of `tile` into `maps`, whose first row is cube row `first_row` (0 for maps of the
   /// whole cube); adds to method_counts and me_iterations. OpenMP threads as FieldMapOptions::threads.
   void Compute(const CubeTile& tile, FieldMaps& maps, long first_row = 0) const;
+  /// The same from a file-order tile (CubeReader::ReadRowsRaw): each worker gathers its pixel's spectra
+  /// (RawCubeTile::Gather), with no reorder pass over the tile; identical results.
+  void Compute(const RawCubeTile& tile, FieldMaps& maps, long first_row = 0) const;
   /// The steps that need the whole map, run once after every pixel is in: the azimuth disambiguation.
   void Finish(FieldMaps& maps) const;
 
  private:
+  void CheckRows(long y_begin, long y_count, long nx, const FieldMaps& maps, long first_row) const;
+  template <class Source>
+  void ComputePixels(const Source& source, long y0, FieldMaps& maps) const;
+
   const CubeInfo& info_;
   const FieldMapOptions& o_;
   int si_ = -1, sq_ = -1, su_ = -1, sv_ = -1;

@@ -94,6 +94,7 @@ struct WeakFieldResult {
 /// Scratch buffers reused across pixels (one per thread); no allocation per pixel after the first.
 struct WeakFieldWorkspace {
   std::vector<double> d1, d2;
+  std::vector<double> x;  ///< transverse regressor per sample (NaN where the region leaves it out)
 };
 
 /// Weak-field estimate for one pixel; `noise` gives the per-Stokes noise (absolute units).

@@ -36,6 +36,7 @@ struct WeakFieldRegimeOptions {
   double consistency_sigma = 5.0;  ///< chi2 excess (in its standard deviations) that rejects the model
   double saturated_above = 1.0;    ///< saturation index u above which the textbook transverse forms are biased
                                    ///< (measured: -11 % at eta0 = 3, where u comes out ~1.8; docs/methods.md)
+  bool explain = true;             ///< fill WeakFieldRegime::reason (maps skip it: formatting costs ~5 % of a wfa map)
 
   std::string Validate() const;
 };

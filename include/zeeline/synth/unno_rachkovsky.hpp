@@ -85,8 +85,12 @@ class MilneEddingtonModel {
   /// Stokes spectra at the given wavelengths (any grid); `stokes` and, when non-null, `jacobian` are
   /// resized to the grid length if needed. The parameters must satisfy MeParameters::Validate() (not
   /// checked here: this is the per-pixel hot path).
+  /// `wanted` (optional, with a jacobian): derivatives only for the parameters marked true; the other
+  /// entries of the jacobian are left as they were. With the filling factor not wanted and fill = 1 the
+  /// non-magnetic profile is not evaluated at all (a quarter of the Voigt evaluations of a triplet).
   void Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wavelength_nm, const MeParameters& p,
-                  StokesArray& stokes, StokesJacobian* jacobian = nullptr) const;
+                  StokesArray& stokes, StokesJacobian* jacobian = nullptr,
+                  const std::array<bool, kMeParamCount>* wanted = nullptr) const;
 
   /// The magnetic component's propagation matrix at one wavelength (for tests and diagnostics).
   PropagationMatrix Propagation(double wavelength_nm, const MeParameters& p) const;
