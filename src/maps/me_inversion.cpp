@@ -207,6 +207,7 @@ std::string MeInversionOptions::Validate() const {
   else if (!(lambda_initial > 0.0) || !(lambda_max > lambda_initial))
     m << "lambda initial = " << lambda_initial << ", max = " << lambda_max << ": need 0 < initial < max";
   else if (max_restarts < 0 || max_restarts > 4) m << "max restarts = " << max_restarts << " must be in [0, 4]";
+  else if (!(restart_sigma >= 0.0)) m << "restart sigma = " << restart_sigma << " must be >= 0";
   else if (!(restart_chi2 > 0.0)) m << "restart chi2 = " << restart_chi2 << " must be > 0";
   else if (!(bad_fit_chi2 > 0.0)) m << "bad-fit chi2 = " << bad_fit_chi2 << " must be > 0";
   return m.str();
@@ -521,7 +522,14 @@ MeResult MeInverter::Invert(const PixelSpectrum& s, const ContinuumEstimate& c, 
   Fit(start, f, n_data, work, best);
   best.starts = 1;
   int total_iterations = best.iterations;
-  for (int k = 0; k < o.max_restarts && best.chi2_reduced > o.restart_chi2; ++k) {
+  // Evidence of a wrong basin (header comment): chi2 above restart_chi2 and above the scatter that the
+  // measured noise allows.
+  int n_free = 0;
+  for (int j = 0; j < kN; ++j) n_free += o.free[j];
+  const double dof = std::max(n_data - n_free, 1);
+  const double noise_var = c.noise_dof > 0.0 && std::isfinite(c.noise_dof) ? 2.0 / c.noise_dof : 0.0;
+  const double restart_above = std::max(o.restart_chi2, 1.0 + o.restart_sigma * std::sqrt(2.0 / dof + noise_var));
+  for (int k = 0; k < o.max_restarts && (best.chi2_reduced > restart_above || !best.converged); ++k) {
     MeParameters alt = start;
     switch (k) {
       case 0: alt.field_gauss = std::min(3.0 * start.field_gauss + 300.0, 0.9 * o.upper[0]); break;

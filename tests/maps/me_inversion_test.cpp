@@ -10,6 +10,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <random>
 #include <vector>
 
@@ -310,6 +311,29 @@ TEST(MeInversion, IterationLimitIsReportedAsNotConverged) {
   EXPECT_EQ(r.iterations, 1);
 }
 
+// Restarts only on evidence (me_inversion.hpp): a noise underestimated by a factor k inflates the expected
+// reduced chi2 of the right solution to 1/k^2 (textbook: chi2 of N(0, sigma^2) residuals scaled by
+// k^2 sigma^2); when that noise was measured from a few continuum samples (noise_dof small) such an excess
+// is no evidence of a wrong basin and costs no restarts; with the same noise given (noise_dof infinite) or
+// measured from many samples, the excess above restart_chi2 still triggers them.
+TEST(MeInversion, RestartsOnlyWhenTheChi2ExcessExceedsTheNoiseEstimateScatter) {
+  const MeInverter inv({Line6302()}, MeInversionOptions{});
+  std::mt19937_64 rng(11);
+  const MeParameters truth = Make(600.0, 40.0, 120.0, -0.5);
+  const Pixel px = Synth(inv.model(), Grid60(), truth, kNoise, &rng);
+  ContinuumEstimate c = KnownNoise(truth, 0.65 * kNoise);  // expected reduced chi2 1/0.65^2 = 2.37
+  MeWorkspace w;
+  c.noise_dof = 10.0;  // sigma^2 from ~20 samples: rel. sd sqrt(2/10) = 0.45, bar 1 + 5 * 0.46 = 3.3
+  const MeResult few = inv.Invert(px.View(), c, {}, w);
+  EXPECT_GT(few.chi2_reduced, MeInversionOptions{}.restart_chi2);
+  EXPECT_EQ(few.starts, 1);
+  EXPECT_NEAR(few.params.field_gauss, truth.field_gauss, kPullSigma * few.sigma[0] + kFieldFloor_gauss);
+  c.noise_dof = std::numeric_limits<double>::infinity();  // noise given: restart_chi2 alone decides
+  const MeResult given = inv.Invert(px.View(), c, {}, w);
+  EXPECT_GT(given.starts, 1);
+  EXPECT_NEAR(given.params.field_gauss, truth.field_gauss, kPullSigma * given.sigma[0] + kFieldFloor_gauss);
+}
+
 TEST(MeInversion, StokesWeightsKeepTheSolutionAndGiveSandwichErrors) {
   // Noiseless data: any positive weights must return the truth (the minimum is at chi2 = 0).
   MeInversionOptions o;
@@ -479,6 +503,9 @@ TEST(MeInversionOptions, BadValuesAreNamed) {
   o = {};
   o.max_restarts = 9;
   expect(o, "max restarts");
+  o = {};
+  o.restart_sigma = -1.0;
+  expect(o, "restart sigma");
   o = {};
   o.lambda_max = 1e-5;
   expect(o, "lambda");
