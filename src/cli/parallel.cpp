@@ -5,6 +5,7 @@
 #include <chrono>
 #include <cstdio>
 #include <cstdlib>
+#include <string>
 #include <thread>
 
 #include "zeeline/core/errors.hpp"
@@ -15,6 +16,23 @@ namespace {
 
 ParallelInfo g_parallel;
 const ParallelBackend* g_backend = nullptr;
+
+// The message with control bytes (which a hostile file or argument may carry into it) shown as \xNN, so the
+// terminal neither hides nor interprets them; newlines and tabs are kept.
+std::string Printable(const char* message) {
+  std::string out;
+  for (const char* c = message; *c; ++c) {
+    const auto b = static_cast<unsigned char>(*c);
+    if ((b < 0x20 && b != '\n' && b != '\t') || b == 0x7f) {
+      char hex[5];
+      std::snprintf(hex, sizeof hex, "\\x%02x", b);
+      out += hex;
+    } else {
+      out += *c;
+    }
+  }
+  return out;
+}
 
 // Copies an MPI launcher says it started (0 when not launched by one).
 int LaunchedCopies() {
@@ -62,18 +80,19 @@ int DefaultThreads() {
 }
 
 int ReportFailure(const std::exception& e, int code) {
+  const std::string what = Printable(e.what());
   if (!g_parallel.mpi || g_parallel.size == 1) {
-    std::fprintf(stderr, "zeeline: error: %s\n", e.what());
+    std::fprintf(stderr, "zeeline: error: %s\n", what.c_str());
     return code;
   }
   if (dynamic_cast<const CollectiveError*>(&e)) {
-    if (g_parallel.rank == 0) std::fprintf(stderr, "zeeline: error: %s\n", e.what());
+    if (g_parallel.rank == 0) std::fprintf(stderr, "zeeline: error: %s\n", what.c_str());
     return code;
   }
   // Only this rank may know: report and stop every rank. Ranks other than 0 wait a moment first, so that
   // an error every rank meets (a missing file, an existing output) is normally printed once, by rank 0.
   if (g_parallel.rank != 0) std::this_thread::sleep_for(std::chrono::milliseconds(500));
-  std::fprintf(stderr, "zeeline: error (rank %d of %d): %s\n", g_parallel.rank, g_parallel.size, e.what());
+  std::fprintf(stderr, "zeeline: error (rank %d of %d): %s\n", g_parallel.rank, g_parallel.size, what.c_str());
   std::fflush(stderr);
   g_backend->abort(code);
   return code;

@@ -123,8 +123,11 @@ void CubeReader::Impl::Open(const std::string& path) {
     fits_parse_rootname(const_cast<char*>(path.c_str()), root, &st);
     struct stat sb {};
     const std::string r = Trim(root);
-    if (st == 0 && !r.empty() && r.find("://") == std::string::npos && ::stat(r.c_str(), &sb) != 0)
-      throw FitsError("'" + path + "': no such file");
+    if (st == 0 && !r.empty() && r.find("://") == std::string::npos) {
+      if (::stat(r.c_str(), &sb) != 0) throw FitsError("'" + path + "': no such file");
+      if (S_ISDIR(sb.st_mode)) throw FitsError("'" + path + "': is a directory, not a FITS file");
+      if (S_ISREG(sb.st_mode) && sb.st_size == 0) throw FitsError("'" + path + "': the file is empty (0 bytes)");
+    }
   }
   int status = 0;
   if (fits_open_image(&f, path.c_str(), READONLY, &status)) {

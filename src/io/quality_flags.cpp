@@ -11,7 +11,8 @@ std::vector<std::string> QualityBitNames(std::uint32_t flags) {
                {kQualityMasked, "MASKED"},                  {kQualityBadFit, "BAD_FIT"},
                {kQualityNoContinuum, "NO_CONTINUUM"},       {kQualitySaturatedLine, "SATURATED_LINE"},
                {kQualityModelMismatch, "MODEL_MISMATCH"},   {kQualityInconsistent, "INCONSISTENT"},
-               {kQualityLowTransverse, "LOW_TRANSVERSE"}};
+               {kQualityLowTransverse, "LOW_TRANSVERSE"},   {kQualityAbsurdInput, "ABSURD_INPUT"},
+               {kQualityNonPositiveI, "NONPOSITIVE_I"},     {kQualityPolExceedsI, "POL_EXCEEDS_I"}};
   std::vector<std::string> out;
   std::uint32_t known = 0;
   for (const auto& b : kBits) {

@@ -17,6 +17,7 @@
 #include "zeeline/core/units.hpp"
 #include "zeeline/io/quality_flags.hpp"
 #include "zeeline/maps/centre_of_gravity.hpp"
+#include "zeeline/maps/data_sanity.hpp"
 #include "zeeline/maps/field_vector.hpp"
 #include "zeeline/maps/full_splitting.hpp"
 #include "zeeline/maps/pixel_spectrum.hpp"
@@ -131,13 +132,14 @@ class PixelProcessor {
     regime_.explain = false;  // the map keeps verdicts, not their wording
   }
 
-  void Process(const PixelSpectrum& s, bool nonfinite, PixelOut& out) {
+  // `rejected`: QUALITY bits of the data-sanity check (data_sanity.hpp); such a pixel is not inverted.
+  void Process(const PixelSpectrum& s, std::uint32_t rejected, PixelOut& out) {
     for (float& x : out.v) x = kNaN;
     out.method = 0;
     out.quality = 0;
     out.me_iterations = 0;
-    if (nonfinite) {
-      out.quality = kQualityNonFiniteInput;
+    if (rejected) {
+      out.quality = static_cast<std::int32_t>(rejected);
       return;
     }
     const ContinuumEstimate c = EstimateContinuum(s, lay_.continuum, o_.noise_rel);
@@ -513,12 +515,34 @@ void FieldMapEngine::ChooseLayout(const RawCubeTile& first_tile) {
   // The spectral layout always comes from the first tile, so a resumed run makes the same choices.
   if (first_tile.y_begin != 0 || first_tile.nx != info_.nx)
     throw OptionError("FieldMapEngine::ChooseLayout: the tile must be the reader's first tile (rows from 0)");
+  // Pixels with non-finite or absurd samples (data_sanity.hpp) stay out of the mean profile and of the cube's
+  // median level, which sets the data-sanity ceiling.
   const std::size_t nw = info_.wavelength_nm.size();
   std::vector<double> mean_I(nw, 0.0), spectra(nw * static_cast<std::size_t>(info_.n_stokes()));
   std::vector<long> count(nw, 0);
-  for (long p = 0; p < first_tile.n_pixels(); ++p) {
-    if (first_tile.Gather(p, spectra.data())) continue;  // a pixel with NaN/Inf samples
-    const double* I = spectra.data() + static_cast<std::size_t>(si_) * nw;
+  const long np = first_tile.n_pixels();
+  auto gather = [&](long p) {
+    first_tile.Gather(p, spectra.data());
+    const double* d = spectra.data();
+    return PixelSpectrum{info_.wavelength_nm.data(), nw, d + static_cast<std::size_t>(si_) * nw,
+                         has_qu_ ? d + static_cast<std::size_t>(sq_) * nw : nullptr,
+                         has_qu_ ? d + static_cast<std::size_t>(su_) * nw : nullptr,
+                         has_v_ ? d + static_cast<std::size_t>(sv_) * nw : nullptr};
+  };
+  const DataSanityLimits type_range = MakeSanityLimits(info_.bitpix, 0.0, 0.0);
+  const std::size_t stride = std::max<std::size_t>(1, static_cast<std::size_t>(np) * nw / (1u << 20));
+  std::vector<double> levels;
+  for (long p = 0; p < np; ++p) {
+    const PixelSpectrum s = gather(p);
+    if (CheckSampleRange(s, type_range)) continue;
+    for (std::size_t k = static_cast<std::size_t>(p) % stride; k < nw; k += stride) levels.push_back(s.I[k]);
+  }
+  const double median_level = MedianLevel(std::move(levels));
+  const DataSanityLimits range = MakeSanityLimits(info_.bitpix, median_level, 0.0);
+  for (long p = 0; p < np; ++p) {
+    const PixelSpectrum s = gather(p);
+    if (CheckSampleRange(s, range)) continue;  // NaN/Inf, fill values, absurd levels
+    const double* I = s.I;
     for (std::size_t k = 0; k < nw; ++k) {
       mean_I[k] += I[k];
       ++count[k];
@@ -526,6 +550,7 @@ void FieldMapEngine::ChooseLayout(const RawCubeTile& first_tile) {
   }
   for (std::size_t k = 0; k < nw; ++k) mean_I[k] = count[k] ? mean_I[k] / static_cast<double>(count[k]) : 0.0;
   layout_ = zeeline::ChooseLayout(info_.wavelength_nm, mean_I, o_);  // the free function above
+  layout_.median_level = median_level;
 }
 
 void FieldMapEngine::InitMaps(long rows, FieldMaps& maps) const {
@@ -588,6 +613,7 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
   const long npix = source.n_pixels();
   std::int64_t counts[5] = {0, 0, 0, 0, 0};
   std::int64_t me_iterations = 0;
+  const DataSanityLimits sanity = MakeSanityLimits(info_.bitpix, layout_.median_level, o_.noise_rel);
 #pragma omp parallel num_threads(threads)
   {
     PixelProcessor proc(o_, layout_, has_qu_, has_v_, inverter_.get());
@@ -597,8 +623,9 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
     std::int64_t local_iterations = 0;
 #pragma omp for schedule(dynamic, 16)
     for (long p = 0; p < npix; ++p) {
-      bool nonfinite = false;
+      bool nonfinite = false;  // CheckPixelSanity below finds these samples too (and more)
       const double* spectra = source.Spectra(p, buffer, nonfinite);  // [stokes][wavelength]
+      (void)nonfinite;
       PixelSpectrum s;
       s.wavelength_nm = info_.wavelength_nm.data();
       s.n = nw;
@@ -606,7 +633,7 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
       s.Q = has_qu_ ? spectra + static_cast<std::size_t>(sq_) * nw : nullptr;
       s.U = has_qu_ ? spectra + static_cast<std::size_t>(su_) * nw : nullptr;
       s.V = has_v_ ? spectra + static_cast<std::size_t>(sv_) * nw : nullptr;
-      proc.Process(s, nonfinite, out);
+      proc.Process(s, CheckPixelSanity(s, layout_.continuum, sanity), out);
       const std::size_t g = static_cast<std::size_t>(y0 * info_.nx + p);
       for (int k = 0; k < kSlotCount; ++k) maps.slots[static_cast<std::size_t>(k)][g] = out.v[k];
       maps.method[g] = out.method;
@@ -625,6 +652,7 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
 }
 
 void FieldMapEngine::Finish(FieldMaps& maps) const {
+  RequireUsablePixel(maps.quality, info_.path);
   if (o_.disambiguate)
     DisambiguateAzimuth(maps.nx, maps.ny, maps.slots[kSlotBlos], maps.slots[kSlotBtrans], maps.slots[kSlotBtransErr],
                         maps.slots[kSlotAzimuth], maps.disambiguation, o_.disambiguation);

@@ -18,8 +18,10 @@
 // Disambiguation (disambiguate = true, disambiguation.hpp): after all pixels, the B_AZIM map is turned into
 // [0, 360) by the acute-angle rule against the potential field of B_LOS, and FieldMaps::disambiguation holds
 // a flag per pixel (DisambiguationFlag). Without it B_AZIM is in [0, 180).
-// Every pixel gets a METHOD code (map_method.hpp) and QUALITY bits (io/quality_flags.hpp): a pixel with
-// NaN/Inf input gets NaN maps and NONFINITE_INPUT, and its neighbours are untouched; a pixel whose |B_LOS|
+// Every pixel gets a METHOD code (map_method.hpp) and QUALITY bits (io/quality_flags.hpp): a pixel failing the
+// data-sanity check (data_sanity.hpp: NaN/Inf, absurd values, continuum I <= 0, |Q|,|U|,|V| > I) gets NaN maps
+// and the matching bits, is not inverted, and its neighbours are untouched; when no pixel passes, FitsError
+// "no usable pixel" is thrown after the run; a pixel whose |B_LOS|
 // and B_TRANS are both below detection_sigma times their errors gets LOW_SIGNAL; an estimate outside its
 // method's validity gets OUT_OF_RANGE.
 // The cube is read tile by tile (io/cube_reader.hpp), so memory holds one tile plus the 2-D maps.
@@ -136,6 +138,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& options, c
 struct SpectralLayout {
   double window_halfwidth_nm = 0.0;
   std::vector<std::size_t> continuum;  ///< indices into the wavelength grid
+  double median_level = 0.0;           ///< the cube's median |I| (data_sanity.hpp MedianLevel); 0 = no ceiling
 };
 
 class FieldMapEngine {
@@ -164,7 +167,8 @@ class FieldMapEngine {
   /// The same from a file-order tile (CubeReader::ReadRowsRaw): each worker gathers its pixel's spectra
   /// (RawCubeTile::Gather), with no reorder pass over the tile; identical results.
   void Compute(const RawCubeTile& tile, FieldMaps& maps, long first_row = 0) const;
-  /// The steps that need the whole map, run once after every pixel is in: the azimuth disambiguation.
+  /// The steps that need the whole map, run once after every pixel is in: FitsError "no usable pixel" when
+  /// every pixel failed the data-sanity check (data_sanity.hpp), then the azimuth disambiguation.
   void Finish(FieldMaps& maps) const;
 
  private:

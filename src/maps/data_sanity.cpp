@@ -1,0 +1,110 @@
+#include "zeeline/maps/data_sanity.hpp"
+
+#include <algorithm>
+#include <cfloat>
+#include <cmath>
+#include <sstream>
+
+#include "zeeline/core/errors.hpp"
+
+namespace zeeline {
+
+std::string DataSanityLimits::Validate() const {
+  std::ostringstream m;
+  if (!(abs_limit > 0.0)) m << "abs_limit = " << abs_limit << " must be > 0";
+  else if (!(level_ceiling > 0.0)) m << "level_ceiling = " << level_ceiling << " must be > 0";
+  else if (!(noise_rel >= 0.0) || noise_rel > 1.0) m << "noise_rel = " << noise_rel << " must be in [0, 1]";
+  else if (!(excess_sigma >= 0.0) || !std::isfinite(excess_sigma))
+    m << "excess_sigma = " << excess_sigma << " must be finite and >= 0";
+  return m.str();
+}
+
+double TypeAbsLimit(int bitpix) {
+  // Fill values sit at or near the largest finite number of the type; 1e-3 of it leaves every real signal.
+  if (bitpix == -32) return 1e-3 * static_cast<double>(FLT_MAX);
+  if (bitpix == -64) return 1e-3 * DBL_MAX;
+  return HUGE_VAL;
+}
+
+double MedianLevel(std::vector<double> i_samples) {
+  std::vector<double>& a = i_samples;
+  for (double& x : a) x = std::fabs(x);
+  a.erase(std::remove_if(a.begin(), a.end(), [](double x) { return !std::isfinite(x); }), a.end());
+  if (a.empty()) return 0.0;
+  auto mid = a.begin() + static_cast<std::ptrdiff_t>(a.size() / 2);
+  std::nth_element(a.begin(), mid, a.end());
+  return *mid;
+}
+
+DataSanityLimits MakeSanityLimits(int bitpix, double median_level, double noise_rel) {
+  DataSanityLimits l;
+  l.abs_limit = TypeAbsLimit(bitpix);
+  if (median_level > 0.0 && std::isfinite(median_level)) l.level_ceiling = median_level * std::pow(10.0, kAbsurdOrders);
+  l.noise_rel = noise_rel;
+  return l;
+}
+
+namespace {
+// Bits of one spectrum's range test; `limit` = min(abs_limit, level_ceiling).
+std::uint32_t RangeBits(const double* f, std::size_t n, double limit) {
+  if (!f) return 0;
+  std::uint32_t bits = 0;
+  for (std::size_t k = 0; k < n; ++k) {
+    const double a = std::fabs(f[k]);
+    if (!(a <= limit)) bits |= std::isfinite(a) ? kQualityAbsurdInput : kQualityNonFiniteInput;
+  }
+  return bits;
+}
+
+// |X| - I beyond the tolerance at any sample.
+bool Exceeds(const double* x, const double* I, std::size_t n, double tol) {
+  if (!x) return false;
+  for (std::size_t k = 0; k < n; ++k)
+    if (std::fabs(x[k]) - I[k] > tol) return true;
+  return false;
+}
+}  // namespace
+
+std::uint32_t CheckSampleRange(const PixelSpectrum& s, const DataSanityLimits& limits) {
+  const double limit = std::min(limits.abs_limit, limits.level_ceiling);
+  return RangeBits(s.I, s.n, limit) | RangeBits(s.Q, s.n, limit) | RangeBits(s.U, s.n, limit) |
+         RangeBits(s.V, s.n, limit);
+}
+
+std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::size_t>& continuum_samples,
+                               const DataSanityLimits& limits) {
+  const std::uint32_t range = CheckSampleRange(s, limits);
+  if (range) return range;
+  const ContinuumEstimate c = EstimateContinuum(s, continuum_samples, limits.noise_rel);
+  if (!(c.continuum > 0.0)) return kQualityNonPositiveI;
+  const double rounding = 1e-6 * c.continuum;
+  // The difference |X| - I carries the noise of both.
+  auto tol = [&](double sigma_x) {
+    const double sigma = std::hypot(sigma_x, c.noise_I);
+    return limits.excess_sigma * (std::isfinite(sigma) ? sigma : 0.0) + rounding;
+  };
+  if (Exceeds(s.Q, s.I, s.n, tol(c.noise_Q)) || Exceeds(s.U, s.I, s.n, tol(c.noise_U)) ||
+      Exceeds(s.V, s.I, s.n, tol(c.noise_V)))
+    return kQualityPolExceedsI;
+  return 0;
+}
+
+void RequireUsablePixel(const std::vector<std::int32_t>& quality, const std::string& path) {
+  if (quality.empty()) return;
+  long counts[4] = {0, 0, 0, 0};
+  const std::uint32_t bits[4] = {kQualityNonFiniteInput, kQualityAbsurdInput, kQualityNonPositiveI,
+                                 kQualityPolExceedsI};
+  for (std::int32_t q : quality) {
+    const auto u = static_cast<std::uint32_t>(q);
+    if (!(u & kQualityInputRejected)) return;  // at least one pixel was inverted
+    for (int b = 0; b < 4; ++b) counts[b] += (u & bits[b]) != 0;
+  }
+  std::ostringstream m;
+  m << path << ": no usable pixel: all " << quality.size() << " pixels fail the data-sanity check ("
+    << counts[0] << " with NaN/Inf samples, " << counts[1] << " with absurd values, " << counts[2]
+    << " with continuum Stokes I <= 0, " << counts[3]
+    << " with |Q|, |U| or |V| > I); check the HDU, BSCALE/BZERO, the sign of I and the Stokes order (docs/errors.md)";
+  throw FitsError(m.str());
+}
+
+}  // namespace zeeline
