@@ -2,6 +2,8 @@
 
 #include "zeeline/core/errors.hpp"
 #include "zeeline/io/cube_reader.hpp"
+#include "zeeline/io/quality_flags.hpp"
+#include "zeeline/maps/data_sanity.hpp"
 
 namespace zeeline {
 
@@ -36,6 +38,13 @@ Spectrum1D ReadCubePixelSpectrum(const std::string& cube_path, long x, long y, c
   copy(iq, out.Q);
   copy(iu, out.U);
   copy(info.StokesIndex(StokesParameter::kV), out.V);
+  // The range part of the map's data-sanity check (maps/data_sanity.hpp): such a pixel cannot be measured.
+  const std::uint32_t range = CheckSampleRange(out.View(), MakeSanityLimits(info.bitpix, 0.0, 0.0));
+  if (range & kQualityNonFiniteInput)
+    throw SpectrumError(where + ": NaN or Inf samples (QUALITY NONFINITE_INPUT in a map); pick another pixel");
+  if (range & kQualityAbsurdInput)
+    throw SpectrumError(where + ": samples beyond the plausible range of BITPIX " + std::to_string(info.bitpix) +
+                        " (fill values, QUALITY ABSURD_INPUT in a map); pick another pixel");
   if (out.size() < kMinSpectrumSamples)
     throw SpectrumError(where + ": " + std::to_string(out.size()) + " wavelengths; expected at least " +
                         std::to_string(kMinSpectrumSamples));

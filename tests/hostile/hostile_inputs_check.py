@@ -198,6 +198,9 @@ with tempfile.TemporaryDirectory() as tmp:
 
         write_variant(base, T("block.fits"), put, np.float32)
         expect_maps(label, T("block.fits"), T("o12.fits"), block, bit)
+        # One spectrum of the block (1-based x = 4, y = 3): refused with the pixel named.
+        expect_error(f"measure --pixel, {label}", ["measure", T("block.fits"), "--pixel", "4,3", "--line", "FeI_6302",
+                                                   "--catalog", CATALOG], 1, ["block.fits pixel (4, 3)"])
 
     # int16 with BSCALE/BZERO and BLANK: blank samples become NaN -> NONFINITE_INPUT on those pixels only.
     with fits.open(base) as f:
