@@ -74,7 +74,7 @@ LsTerm ParseLsTerm(const std::string& token, const std::string& level) {
   const std::string j_text = token.substr(i);
   if (j_text.empty()) Fail(level, token, "missing J after the term letter");
   const int two_J = ParseHalfInteger(j_text);
-  if (two_J < 0) Fail(level, token, "J '" + j_text + "' is not a non-negative integer or n/2 with n odd");
+  if (two_J < 0) Fail(level, token, "J '" + j_text + "' is not a non-negative integer or n/2 with n odd (at most 4 digits)");
   LsTerm term{multiplicity - 1, L, two_J, parity};
   if (!InTriangle(2 * L, term.two_S, two_J))
     Fail(level, token,
@@ -151,9 +151,9 @@ Level ParseLevel(const std::string& text) {
       Fail(text, args[1], "outer electron's l must be one lower-case letter (s p d f g ...)");
     level.l = LetterToL(args[1][0], false);
     level.two_K = ParseHalfInteger(args[2]);
-    if (level.two_K < 0) Fail(text, args[2], "K must be a non-negative integer or n/2 with n odd");
+    if (level.two_K < 0) Fail(text, args[2], "K must be a non-negative integer or n/2 with n odd (at most 4 digits)");
     level.two_J = ParseHalfInteger(args[3]);
-    if (level.two_J < 0) Fail(text, args[3], "J must be a non-negative integer or n/2 with n odd");
+    if (level.two_J < 0) Fail(text, args[3], "J must be a non-negative integer or n/2 with n odd (at most 4 digits)");
     if (!InTriangle(level.term.two_J, 2 * level.l, level.two_K))
       Fail(text, args[2],
            "K = " + HalfIntegerText(level.two_K) + " cannot be reached from J1 = " +
@@ -171,7 +171,7 @@ Level ParseLevel(const std::string& text) {
     level.term = ParseLsTerm(args[0], text);
     level.second = ParseLsTerm(args[1], text);
     level.two_J = ParseHalfInteger(args[2]);
-    if (level.two_J < 0) Fail(text, args[2], "J must be a non-negative integer or n/2 with n odd");
+    if (level.two_J < 0) Fail(text, args[2], "J must be a non-negative integer or n/2 with n odd (at most 4 digits)");
     if (!InTriangle(level.term.two_J, level.second.two_J, level.two_J))
       Fail(text, args[2],
            "J = " + HalfIntegerText(level.two_J) + " cannot be reached from J1 = " +

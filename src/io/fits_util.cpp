@@ -3,6 +3,7 @@
 #include <wcslib/wcserr.h>
 #include <wcslib/wcsutil.h>
 
+#include <algorithm>
 #include <cstdio>
 #include <cstdlib>
 #include <mutex>
@@ -68,12 +69,62 @@ std::string Num(double v) {
   return buf;
 }
 
+bool WcsSafeCards(const std::string& header, std::string& cards, std::string& error) {
+  cards.clear();
+  const std::size_t n = header.size() / 80;
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::string card = header.substr(i * 80, 80);
+    const std::string key = card.substr(0, 8);
+    if (key == "COMMENT " || key == "HISTORY " || key == "        " || key == "CONTINUE") continue;
+    auto where = [&] {
+      std::string k = Trim(key);
+      for (char& c : k)
+        if (static_cast<unsigned char>(c) < 0x20 || static_cast<unsigned char>(c) > 0x7e) c = '?';
+      return "header card " + std::to_string(i + 1) + " (" + (k.empty() ? std::string("no keyword") : k) + ")";
+    };
+    for (std::size_t c = 0; c < 80; ++c) {
+      const auto b = static_cast<unsigned char>(card[c]);
+      if (b < 0x20 || b > 0x7e) {
+        char hex[8];
+        std::snprintf(hex, sizeof hex, "0x%02x", b);
+        error = where() + ": byte " + hex + " at column " + std::to_string(c + 1) +
+                " is not printable ASCII (FITS header text is 0x20-0x7E)";
+        return false;
+      }
+    }
+    if (card.compare(8, 2, "= ") == 0) {
+      const std::size_t q = card.find_first_not_of(' ', 10);
+      if (q != std::string::npos && card[q] == '\'') {
+        bool closed = false;
+        for (std::size_t j = q + 1; j < 80; ++j) {
+          if (card[j] != '\'') continue;
+          if (j + 1 < 80 && card[j + 1] == '\'') {  // '' is a quote inside the string
+            ++j;
+            continue;
+          }
+          closed = true;
+          break;
+        }
+        if (!closed) {
+          error = where() + ": string value without a closing quote";
+          return false;
+        }
+      }
+    }
+    cards += card;
+  }
+  return true;
+}
+
 bool ParseHeaderWcs(const std::string& header, int nkeys, WcsHolder& out, std::string& error) {
   EnableWcsErrors();
   WcsArray arr;
   int nreject = 0;
-  std::string copy = header;  // wcspih takes char*
-  const int st = wcspih(copy.data(), nkeys, WCSHDR_all, 0, &nreject, &arr.nwcs, &arr.wcs);
+  std::string copy;  // wcspih takes char*
+  if (!WcsSafeCards(header.substr(0, std::min<std::size_t>(header.size(), 80u * static_cast<std::size_t>(std::max(nkeys, 0)))),
+                    copy, error))
+    return false;
+  const int st = wcspih(copy.data(), static_cast<int>(copy.size() / 80), WCSHDR_all, 0, &nreject, &arr.nwcs, &arr.wcs);
   if (st != 0) {
     error = "wcslib could not parse the header (wcspih status " + std::to_string(st) + ")";
     return false;

@@ -13,6 +13,7 @@
 #include <sstream>
 
 #include "core/utf8_bom.hpp"
+#include "io/fits_util.hpp"
 #include "zeeline/core/errors.hpp"
 
 namespace zeeline {
@@ -266,13 +267,16 @@ HduData ReadImageHdu(fitsfile* f, const std::string& path, int hdu, const std::s
   int nkeys = 0;
   if (fits_hdr2str(f, 1, nullptr, 0, &header, &nkeys, &status))
     throw SpectrumError(name + ": cannot read the header: " + CfitsioText(status));
-  std::string hdr(header);
+  std::string hdr;
+  std::string card_problem;
+  const bool cards_ok = io_detail::WcsSafeCards(header, hdr, card_problem);  // wcslib-safe cards only
   fits_free_memory(header, &status);
   status = 0;
+  if (!cards_ok) throw SpectrumError(name + ": " + card_problem);
 
   int nreject = 0, nwcs = 0;
   wcsprm* wcs = nullptr;
-  if (wcspih(hdr.data(), nkeys, WCSHDR_all, 0, &nreject, &nwcs, &wcs) != 0 || nwcs == 0) {
+  if (wcspih(hdr.data(), static_cast<int>(hdr.size() / 80), WCSHDR_all, 0, &nreject, &nwcs, &wcs) != 0 || nwcs == 0) {
     if (wcs) wcsvfree(&nwcs, &wcs);
     throw SpectrumError(name + ": no WCS keywords; expected CTYPE1 = 'WAVE' or 'AWAV' with CRVAL1, CDELT1, CRPIX1, CUNIT1");
   }

@@ -134,6 +134,14 @@ with tempfile.TemporaryDirectory() as tmp:
     expect_error("header claiming terabytes", map_args(T("tera.fits"), T("o4.fits")), 1,
                  ["tera.fits", "NAXIS1..NAXIS4", "bytes"], T("o4.fits"))
 
+    # A string value without its closing quote (made wcslib's header parser overrun a buffer and abort).
+    hdr_bytes = bytearray(raw)
+    i = hdr_text.index("CTYPE1  =")
+    hdr_bytes[i : i + 80] = ("CTYPE1  = 'HPLN-TAN" + " " * 61).encode()
+    open(T("quote.fits"), "wb").write(bytes(hdr_bytes))
+    expect_error("header string without a closing quote", map_args(T("quote.fits"), T("o4q.fits")), 1,
+                 ["quote.fits", "CTYPE1", "closing quote"], T("o4q.fits"))
+
     # ---- spectral axis
     def zero_step(d, h):
         h["CDELT3"] = 0.0
@@ -225,7 +233,7 @@ with tempfile.TemporaryDirectory() as tmp:
     expect_maps("|V| > I block", T("vexceeds.fits"), T("o14.fits"), block, POL_EXCEEDS_I)
 
     # ---- level strings and units on the command line (exit 1: bad level data; exit 2: bad option value)
-    expect_error("level with 400 digits", ["lande", "5D" + "9" * 400], 1, ["level", "J"])
+    expect_error("level with 400 digits", ["lande", "5D" + "9" * 400], 1, ["level", "at most 4 digits"])
     expect_error("level with a control byte", ["lande", "5D\x014"], 1, ["level", "\\x01"])
     expect_error("level with nested brackets", ["lande", "jK(jK(jK(2P3/2,p,5/2,2),p,5/2,2),p,5/2,2)"], 1,
                  ["level", "jK"])
