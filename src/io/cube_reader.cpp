@@ -357,6 +357,8 @@ void CubeReader::Impl::ParseWcs(const std::array<long long, 4>& naxes) {
     const double r = std::round(v);
     if (!std::isfinite(v) || std::fabs(v - r) > 1e-6)
       Fail(tkey + ": pixel " + std::to_string(k + 1) + " has STOKES value " + Num(v) + "; expected an integer code");
+    if (std::fabs(r) > 1000.0)  // no STOKES code of Paper I is near; and the cast below must fit an int
+      Fail(tkey + ": pixel " + std::to_string(k + 1) + " has STOKES value " + Num(v) + ", outside 1..4 (I, Q, U, V)");
     const int code_v = static_cast<int>(r);
     if (const char* feed = FeedCode(code_v)) {
       Fail(tkey + ": pixel " + std::to_string(k + 1) + " has STOKES value " + std::to_string(code_v) + " (" + feed +

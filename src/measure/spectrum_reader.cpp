@@ -337,7 +337,7 @@ HduData ReadImageHdu(fitsfile* f, const std::string& path, int hdu, const std::s
     std::vector<double> sw;
     world(1, naxes[1], sw);
     for (double c : sw) {
-      const int ic = static_cast<int>(std::lround(c));
+      const int ic = c > 0.5 && c < 4.5 ? static_cast<int>(std::lround(c)) : 0;  // NaN and huge codes: 0
       if (ic < 1 || ic > 4 || std::fabs(c - ic) > 1e-6)
         throw SpectrumError(name + ": CTYPE2 = 'STOKES' gives code " + std::to_string(c) +
                             "; expected 1..4 (I, Q, U, V)");

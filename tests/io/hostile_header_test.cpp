@@ -2,6 +2,7 @@
 // a string value is closed by a quote). An unterminated string made wcslib 7.12's header parser overrun a buffer
 // and abort the program (found by tests/fuzz/fuzz_fits_header; reproducer in
 // tests/fuzz/regressions/fuzz_fits_header/). The cube and spectrum readers now refuse such headers by card.
+// Also here: other header values the fuzzer found that the readers mishandled.
 #include <fitsio.h>
 #include <gtest/gtest.h>
 
@@ -83,6 +84,17 @@ TEST(HostileHeader, CommentaryCardsMayHoldAnyByte) {
   test::WriteCube(path, spec);
   PatchCard(path, "COMMENT", std::string("COMMENT 20") + '\xb0' + "C");  // Latin-1 degree sign
   EXPECT_EQ(CubeError(path), "");
+}
+
+TEST(HostileHeader, HugeStokesCodeIsRefusedWithoutOverflow) {
+  // Found by fuzz_fits_header under UBSan: a STOKES value of 4.757e14 was cast to int before its range check.
+  test::TempDir dir;
+  const std::string path = dir.File("cube.fits");
+  test::WriteCube(path, test::CubeSpec{});
+  PatchCard(path, "CRVAL4  =", "CRVAL4  =          4.757010E+14");
+  const std::string m = CubeError(path);
+  EXPECT_NE(m.find("CRVAL4"), std::string::npos) << m;
+  EXPECT_NE(m.find("outside 1..4"), std::string::npos) << m;
 }
 
 TEST(HostileHeader, SpectrumReaderRefusesAnUnterminatedString) {
