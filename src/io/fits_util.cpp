@@ -4,8 +4,10 @@
 #include <wcslib/wcsutil.h>
 
 #include <algorithm>
+#include <cctype>
 #include <cstdio>
 #include <cstdlib>
+#include <map>
 #include <mutex>
 
 namespace zeeline::io_detail {
@@ -72,10 +74,19 @@ std::string Num(double v) {
 bool WcsSafeCards(const std::string& header, std::string& cards, std::string& error) {
   cards.clear();
   const std::size_t n = header.size() / 80;
+  std::map<std::string, std::size_t> seen;  // keyword -> index of its first card
   for (std::size_t i = 0; i < n; ++i) {
     const std::string card = header.substr(i * 80, 80);
     const std::string key = card.substr(0, 8);
     if (key == "COMMENT " || key == "HISTORY " || key == "        " || key == "CONTINUE") continue;
+    // wcspih sizes its arrays by the largest axis number in any WCS keyword (CTYPE9999 -> 9999^2 PC
+    // elements): keywords with axis numbers above 99 are dropped (zeeline reads at most 4 axes).
+    bool big_index = false;
+    for (std::size_t c = 0, run = 0; c < 8; ++c) {
+      run = std::isdigit(static_cast<unsigned char>(key[c])) ? run + 1 : 0;
+      big_index = big_index || run >= 3;
+    }
+    if (big_index) continue;
     auto where = [&] {
       std::string k = Trim(key);
       for (char& c : k)
@@ -110,6 +121,19 @@ bool WcsSafeCards(const std::string& header, std::string& cards, std::string& er
           return false;
         }
       }
+    }
+    // A keyword may appear once (FITS Standard 4.0 sect. 4.1.2.1): a second NAXIS or WCSAXES would give
+    // wcslib another axis count than cfitsio. An identical repeat is dropped; a different one is an error.
+    const auto [first, inserted] = seen.emplace(key, i);
+    if (!inserted) {
+      if (header.compare(first->second * 80, 80, card) == 0) continue;
+      error = where() + ": keyword repeated with another value (first at card " + std::to_string(first->second + 1) + ")";
+      return false;
+    }
+    if (key.compare(0, 7, "WCSAXES") == 0 && card.compare(8, 2, "= ") == 0 &&
+        std::strtol(card.c_str() + 10, nullptr, 10) > 99) {
+      error = where() + ": more than 99 WCS axes";
+      return false;
     }
     cards += card;
   }

@@ -78,11 +78,13 @@ std::string Trim(const std::string& s);
 /// %.10g
 std::string Num(double v);
 
-/// The cards of `header` that wcspih may safely read: commentary cards (COMMENT, HISTORY, blank keyword) and
-/// CONTINUE cards dropped, every other card checked against the FITS Standard 4.0 (sect. 4.1.2.1, 4.2.1): ASCII
-/// text 0x20..0x7E, and a string value closed by a quote. wcslib 7.12's header parser overruns a buffer on an
-/// unterminated string value (found by tests/fuzz/fuzz_fits_header), so such a header is refused here. Returns
-/// false with `error` naming the card number, its keyword and the problem.
+/// The cards of `header` that wcspih may safely read: commentary cards (COMMENT, HISTORY, blank keyword),
+/// CONTINUE cards and keywords with axis numbers above 99 dropped, every other card checked against the FITS
+/// Standard 4.0 (sect. 4.1.2.1, 4.2.1): ASCII text 0x20..0x7E, a string value closed by a quote, no keyword
+/// repeated with another value, WCSAXES <= 99. wcslib 7.12's header parser overruns a buffer on an unterminated
+/// string value, and a stray NAXIS = 6302 or CTYPE9999 makes it allocate and loop over n^2 matrix elements
+/// (both found by tests/fuzz/fuzz_fits_header), so such headers are refused or trimmed here. Returns false with
+/// `error` naming the card number, its keyword and the problem.
 bool WcsSafeCards(const std::string& header, std::string& cards, std::string& error);
 
 /// Parses a header block (cards) with wcspih and returns the primary (alternate ' ') WCS into `out`

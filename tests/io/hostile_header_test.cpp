@@ -97,6 +97,30 @@ TEST(HostileHeader, HugeStokesCodeIsRefusedWithoutOverflow) {
   EXPECT_NE(m.find("outside 1..4"), std::string::npos) << m;
 }
 
+TEST(HostileHeader, RepeatedKeywordWithAnotherValueIsRefused) {
+  // Found by fuzz_fits_header: a second NAXIS = 6302 was read by wcslib (cfitsio took the first), which then
+  // set up 6302 axes and spent seconds in wcssub.
+  test::TempDir dir;
+  const std::string path = dir.File("cube.fits");
+  test::CubeSpec spec;
+  spec.extra_cards = {"DATE-OBS= '2026-06-01'", "DATE-OBS= '2026-06-01'", "OBSERVER= 'A'"};
+  test::WriteCube(path, spec);
+  EXPECT_EQ(CubeError(path), "");  // an identical repeat is harmless
+  PatchCard(path, "OBSERVER=", "NAXIS   =                 6302");
+  const std::string m = CubeError(path);
+  EXPECT_NE(m.find("NAXIS"), std::string::npos) << m;
+  EXPECT_NE(m.find("repeated with another value"), std::string::npos) << m;
+}
+
+TEST(HostileHeader, AxisNumbersAbove99AreIgnored) {
+  test::TempDir dir;
+  const std::string path = dir.File("cube.fits");
+  test::CubeSpec spec;
+  spec.extra_cards = {"CRPIX999=                  1.0"};  // wcspih alone would make 999 axes
+  test::WriteCube(path, spec);
+  EXPECT_EQ(CubeError(path), "");
+}
+
 TEST(HostileHeader, SpectrumReaderRefusesAnUnterminatedString) {
   test::TempDir dir;
   const std::string path = dir.File("spectrum.fits");
