@@ -1,8 +1,9 @@
 #!/usr/bin/python3
 """`mpirun -np N zeeline map` against the one-process run, read back with astropy (Debian python3-astropy).
 
-* Bit-identical maps: every HDU's data (all maps, METHOD, QUALITY, AZIM_PICK) of -np 2 and -np 3 runs equal
-  the one-process run exactly (NaN where NaN), for wfa, me and auto with the azimuth disambiguation; -np 3
+* Bit-identical maps: every HDU's data (all maps, METHOD, QUALITY, AZIM_PICK) of -np 2 (2 threads per rank)
+  and -np 3 (1 thread) runs equal the one-process run exactly (NaN where NaN), for wfa, me and auto with the
+  azimuth disambiguation; -np 3
   on 23 rows in tasks of 3 (8 tasks: they do not divide among 3 ranks, the last task has 2 rows).
 * A rank given no work: -np 3 on a 16-row cube in tasks of 8 rows; the run succeeds and the summary names a
   rank with 0 pixels.
@@ -100,7 +101,7 @@ with tempfile.TemporaryDirectory() as tmp:
         one = path(f"one_{method}.fits")
         run([ZEELINE, "map", *common, "--threads", "2", "-o", one])
         two = path(f"two_{method}.fits")
-        run([*mpirun(2), "map", *common, "--threads", "1", "-o", two])
+        run([*mpirun(2), "map", *common, "--threads", "2", "-o", two])  # OpenMP threads inside each rank
         three = path(f"three_{method}.fits")
         p = run([*mpirun(3), "map", *common[:-1], "--threads", "1", "--rows-per-task", "3", "-o", three])
         check("8 tasks of 3 rows" in p.stdout, f"{method} -np 3: summary {p.stdout.strip()[-200:]!r}")
