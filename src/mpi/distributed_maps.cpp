@@ -63,21 +63,6 @@ void WaitGently(MPI_Request& request) {
   }
 }
 
-// Rows [first, first + count) of a tile (pixel-major, cube_reader.hpp) as a tile of their own.
-void CopyRows(const CubeTile& from, long first, long count, CubeTile& to) {
-  to.y_begin = from.y_begin + first;
-  to.y_count = count;
-  to.nx = from.nx;
-  to.n_stokes = from.n_stokes;
-  to.n_wavelength = from.n_wavelength;
-  const std::size_t per_pixel = static_cast<std::size_t>(from.n_stokes * from.n_wavelength);
-  const std::size_t p0 = static_cast<std::size_t>(first * from.nx), np = static_cast<std::size_t>(count * from.nx);
-  to.data.assign(from.data.begin() + static_cast<std::ptrdiff_t>(p0 * per_pixel),
-                 from.data.begin() + static_cast<std::ptrdiff_t>((p0 + np) * per_pixel));
-  to.nonfinite.assign(from.nonfinite.begin() + static_cast<std::ptrdiff_t>(p0),
-                      from.nonfinite.begin() + static_cast<std::ptrdiff_t>(p0 + np));
-}
-
 // FieldMaps::method_counts of rows [0, rows) from the METHOD map (what a one-process run has counted).
 void CountMethods(long rows, FieldMaps& maps) {
   std::fill(std::begin(maps.method_counts), std::end(maps.method_counts), 0);
@@ -185,7 +170,7 @@ void RunWorker(CubeReader& reader, const FieldMapEngine& engine, const TaskPlan&
     WaitGently(r);
     return static_cast<long>(t);
   };
-  CubeTile tile;
+  RawCubeTile tile;  // file order; each pixel is gathered by the thread that computes it
   FieldMaps part;
   std::vector<char> out[2];
   MPI_Request sent[2] = {MPI_REQUEST_NULL, MPI_REQUEST_NULL};
@@ -198,7 +183,7 @@ void RunWorker(CubeReader& reader, const FieldMapEngine& engine, const TaskPlan&
     WaitGently(sent[slot]);
     int tag = kTagResult;
     try {
-      reader.ReadRows(plan.Begin(t), plan.Rows(t), tile);
+      reader.ReadRowsRaw(plan.Begin(t), plan.Rows(t), tile);
       engine.InitMaps(plan.Rows(t), part);
       engine.Compute(tile, part, plan.Begin(t));
       PackResult(t, part, out[slot]);
@@ -290,7 +275,7 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
     }
   };
 
-  CubeTile tile, row;
+  RawCubeTile row;
   while (true) {
     serve();
     if (run.cancel && run.cancel->load()) cancelled = true;
@@ -299,10 +284,13 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
       if (t >= 0) {
         try {
           // Row by row, answering the other ranks in between: they never wait longer than one row.
-          reader.ReadRows(plan.Begin(t), plan.Rows(t), tile);
-          for (long y = 0; y < plan.Rows(t); ++y) {
-            CopyRows(tile, y, 1, row);
+          for (long y = plan.Begin(t); y < plan.Begin(t) + plan.Rows(t); ++y) {
+            const auto t0 = Clock::now();
+            reader.ReadRowsRaw(y, 1, row);
+            const auto t1 = Clock::now();
             engine.Compute(row, maps);
+            maps.read_seconds += std::chrono::duration<double>(t1 - t0).count();
+            maps.compute_seconds += std::chrono::duration<double>(Clock::now() - t1).count();
             serve();
           }
           ++report.tasks_per_rank[0];
@@ -325,6 +313,7 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
       std::this_thread::sleep_for(std::chrono::microseconds(200));
     }
   }
+  maps.read_wait_seconds = maps.read_seconds;  // rank 0 reads its rows in line with its computation
   if (!failure.empty() || cancelled) {
     try {
       save(true);  // what was finished is kept for --resume
