@@ -16,7 +16,9 @@
 #include "zeeline/synth/unno_rachkovsky.hpp"
 
 #include <cmath>
+#include <cstring>
 #include <sstream>
+#include <type_traits>
 
 #include <Eigen/LU>
 
@@ -158,122 +160,192 @@ PropagationMatrix MilneEddingtonModel::Propagation(double wavelength_nm, const M
   return {1.0 + e[0], e[1], e[2], e[3], e[4], e[5], e[6]};
 }
 
+// Everything one wavelength of a synthesis computes before the Jacobian assembly.
+struct MilneEddingtonModel::Point {
+  GroupSum val, dB, dvl, dwd, da;
+  double hn = 0.0, hn_vl = 0.0, hn_wd = 0.0, hn_a = 0.0;  // non-magnetic sum of c_l H and derivatives
+  double e[7];
+  double y[4];
+  double mag[4];
+  double yn = 0.0, i_nonmag = 0.0;
+};
+
+struct MilneEddingtonModel::Geometry {
+  Angular ang, ang_g, ang_x;
+  static Geometry Of(const MeParameters& p);
+};
+
+MilneEddingtonModel::Geometry MilneEddingtonModel::Geometry::Of(const MeParameters& p) {
+  const double g = p.inclination_deg * kRadPerDeg, chi = p.azimuth_deg * kRadPerDeg;
+  const double sg = std::sin(g), cg = std::cos(g);
+  const double c2x = std::cos(2.0 * chi), s2x = std::sin(2.0 * chi);
+  const double sg2 = sg * sg;
+  return {Angular{sg2, 0.5 * (1.0 + cg * cg), sg2 * c2x, sg2 * s2x, cg},
+          // d/d(inclination) and d/d(azimuth), per radian
+          Angular{2.0 * sg * cg, -sg * cg, 2.0 * sg * cg * c2x, 2.0 * sg * cg * s2x, -sg},
+          Angular{0.0, 0.0, -2.0 * sg2 * s2x, 2.0 * sg2 * c2x, 0.0}};
+}
+
+namespace {
+constexpr std::size_t kPointDoubles = 64;  // room for MilneEddingtonModel::Point (static_assert below)
+}  // namespace
+
+void MilneEddingtonModel::Evaluate(double lambda, const MeParameters& p, bool derivatives, bool need_nonmag,
+                                   Point& pt) const {
+  const FaddeevaFn faddeeva = options_.voigt == VoigtMethod::kFast ? &FaddeevaFast : &FaddeevaReference;
+  const double a = p.damping;
+  const double inv_wd = 1.0 / p.doppler_width_nm;
+  pt = Point{};
+  for (const CompactLine& line : lines_) {
+    const double centre = line.wavelength_nm * (1.0 + p.vlos_kms / kSpeedOfLight_kms);
+    const double dv_dvlos = -line.wavelength_nm / kSpeedOfLight_kms * inv_wd;
+    const double lb = line.lorentz_nm_per_gauss * p.field_gauss;
+    const double x0 = lambda - centre;
+    for (int j = line.first_component; j < line.first_component + line.component_count; ++j) {
+      const Component& c = components_[j];
+      const double v = (x0 - c.shift_lorentz * lb) * inv_wd;
+      const FaddeevaValue w = faddeeva(a, v);
+      pt.val.Add(c.group, c.strength, w.w_re, w.w_im);
+      if (derivatives) {
+        const double dv_dB = -c.shift_lorentz * line.lorentz_nm_per_gauss * inv_wd;
+        pt.dB.Add(c.group, c.strength * dv_dB, w.dw_re, w.dw_im);
+        pt.dvl.Add(c.group, c.strength * dv_dvlos, w.dw_re, w.dw_im);
+        pt.dwd.Add(c.group, -c.strength * v * inv_wd, w.dw_re, w.dw_im);
+        pt.da.Add(c.group, c.strength, -w.dw_im, w.dw_re);  // dw/da = i w'
+      }
+    }
+    if (need_nonmag) {
+      const double v = x0 * inv_wd;
+      const FaddeevaValue w = faddeeva(a, v);
+      const double s = line.relative_strength;
+      pt.hn += s * w.w_re;
+      pt.hn_vl += s * dv_dvlos * w.dw_re;
+      pt.hn_wd += -s * v * inv_wd * w.dw_re;
+      pt.hn_a += -s * w.dw_im;
+    }
+  }
+}
+
 void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wavelength_nm,
                                      const MeParameters& p, StokesArray& stokes,
                                      StokesJacobian* jacobian, const std::array<bool, kMeParamCount>* wanted) const {
   const Eigen::Index n = wavelength_nm.size();
   if (stokes.rows() != n) stokes.resize(n, 4);
   if (jacobian) jacobian->Resize(n);
-
-  const FaddeevaFn faddeeva = options_.voigt == VoigtMethod::kFast ? &FaddeevaFast : &FaddeevaReference;
-  const double mu = options_.mu;
-  const double a = p.damping;
-  const double wd = p.doppler_width_nm;
-  const double inv_wd = 1.0 / wd;
-  const double A = 0.5 * p.eta0;
-  const double f = p.fill;
   auto want = [wanted](MeParam q) { return wanted == nullptr || (*wanted)[static_cast<int>(q)]; };
-  const bool need_nonmag = f != 1.0 || (jacobian != nullptr && want(MeParam::kFill));
-
-  const double g = p.inclination_deg * kRadPerDeg, chi = p.azimuth_deg * kRadPerDeg;
-  const double sg = std::sin(g), cg = std::cos(g);
-  const double c2x = std::cos(2.0 * chi), s2x = std::sin(2.0 * chi);
-  const double sg2 = sg * sg;
-  const Angular ang{sg2, 0.5 * (1.0 + cg * cg), sg2 * c2x, sg2 * s2x, cg};
-  // d/d(inclination) and d/d(azimuth), per radian
-  const Angular ang_g{2.0 * sg * cg, -sg * cg, 2.0 * sg * cg * c2x, 2.0 * sg * cg * s2x, -sg};
-  const Angular ang_x{0.0, 0.0, -2.0 * sg2 * s2x, 2.0 * sg2 * c2x, 0.0};
-
+  const bool need_nonmag = p.fill != 1.0 || (jacobian != nullptr && want(MeParam::kFill));
+  const double mu = options_.mu, f = p.fill;
+  const Geometry geo = Geometry::Of(p);
+  const Angular& ang = geo.ang;
+  Point pt;
   for (Eigen::Index k = 0; k < n; ++k) {
-    const double lambda = wavelength_nm[k];
-    GroupSum val, dB, dvl, dwd, da;
-    double hn = 0.0, hn_vl = 0.0, hn_wd = 0.0, hn_a = 0.0;  // non-magnetic sum of c_l H and derivatives
-    for (const CompactLine& line : lines_) {
-      const double centre = line.wavelength_nm * (1.0 + p.vlos_kms / kSpeedOfLight_kms);
-      const double dv_dvlos = -line.wavelength_nm / kSpeedOfLight_kms * inv_wd;
-      const double lb = line.lorentz_nm_per_gauss * p.field_gauss;
-      const double x0 = lambda - centre;
-      for (int j = line.first_component; j < line.first_component + line.component_count; ++j) {
-        const Component& c = components_[j];
-        const double v = (x0 - c.shift_lorentz * lb) * inv_wd;
-        const FaddeevaValue w = faddeeva(a, v);
-        val.Add(c.group, c.strength, w.w_re, w.w_im);
-        if (jacobian) {
-          const double dv_dB = -c.shift_lorentz * line.lorentz_nm_per_gauss * inv_wd;
-          dB.Add(c.group, c.strength * dv_dB, w.dw_re, w.dw_im);
-          dvl.Add(c.group, c.strength * dv_dvlos, w.dw_re, w.dw_im);
-          dwd.Add(c.group, -c.strength * v * inv_wd, w.dw_re, w.dw_im);
-          da.Add(c.group, c.strength, -w.dw_im, w.dw_re);  // dw/da = i w'
-        }
-      }
-      if (need_nonmag) {
-        const double v = x0 * inv_wd;
-        const FaddeevaValue w = faddeeva(a, v);
-        const double s = line.relative_strength;
-        hn += s * w.w_re;
-        hn_vl += s * dv_dvlos * w.dw_re;
-        hn_wd += -s * v * inv_wd * w.dw_re;
-        hn_a += -s * w.dw_im;
-      }
-    }
+    Evaluate(wavelength_nm[k], p, jacobian != nullptr, need_nonmag, pt);
+    Elements(pt.val, 0.5 * p.eta0, ang, pt.e);
+    pt.e[0] += 1.0;
+    UnnoRachkovskyY(pt.e, pt.y);
+    pt.mag[0] = p.s0 + mu * p.s1 * pt.y[0];
+    for (int s = 1; s < 4; ++s) pt.mag[s] = mu * p.s1 * pt.y[s];
+    const double eta_n = 1.0 + p.eta0 * pt.hn;
+    pt.yn = need_nonmag ? 1.0 / eta_n : 0.0;
+    pt.i_nonmag = p.s0 + mu * p.s1 * pt.yn;
+    stokes(k, 0) = f * pt.mag[0] + (1.0 - f) * pt.i_nonmag;
+    for (int s = 1; s < 4; ++s) stokes(k, s) = f * pt.mag[s];
+    if (jacobian) PointJacobian(k, p, geo, pt, *jacobian, wanted);
+  }
+}
 
-    double e[7];
-    Elements(val, A, ang, e);
-    e[0] += 1.0;
-    double y[4];
-    UnnoRachkovskyY(e, y);
-    const double mag[4] = {p.s0 + mu * p.s1 * y[0], mu * p.s1 * y[1], mu * p.s1 * y[2], mu * p.s1 * y[3]};
-    const double eta_n = 1.0 + p.eta0 * hn;
-    const double yn = need_nonmag ? 1.0 / eta_n : 0.0;
-    const double i_nonmag = p.s0 + mu * p.s1 * yn;
-    stokes(k, 0) = f * mag[0] + (1.0 - f) * i_nonmag;
-    for (int s = 1; s < 4; ++s) stokes(k, s) = f * mag[s];
+void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wavelength_nm,
+                                     const MeParameters& p, StokesArray& stokes, SynthesisCache& cache,
+                                     const std::array<bool, kMeParamCount>* wanted) const {
+  static_assert(sizeof(Point) <= kPointDoubles * sizeof(double), "kPointDoubles too small");
+  static_assert(std::is_trivially_copyable_v<Point>, "Point is copied as bytes");
+  const Eigen::Index n = wavelength_nm.size();
+  if (stokes.rows() != n) stokes.resize(n, 4);
+  if (cache.state.size() != static_cast<std::size_t>(n) * kPointDoubles)
+    cache.state.resize(static_cast<std::size_t>(n) * kPointDoubles);
+  cache.params = p;
+  cache.n = n;
+  const bool need_nonmag = p.fill != 1.0 || wanted == nullptr || (*wanted)[static_cast<int>(MeParam::kFill)];
+  const double mu = options_.mu, f = p.fill;
+  const Geometry geo = Geometry::Of(p);
+  const Angular& ang = geo.ang;
+  Point pt;
+  for (Eigen::Index k = 0; k < n; ++k) {
+    Evaluate(wavelength_nm[k], p, true, need_nonmag, pt);
+    Elements(pt.val, 0.5 * p.eta0, ang, pt.e);
+    pt.e[0] += 1.0;
+    UnnoRachkovskyY(pt.e, pt.y);
+    pt.mag[0] = p.s0 + mu * p.s1 * pt.y[0];
+    for (int s = 1; s < 4; ++s) pt.mag[s] = mu * p.s1 * pt.y[s];
+    const double eta_n = 1.0 + p.eta0 * pt.hn;
+    pt.yn = need_nonmag ? 1.0 / eta_n : 0.0;
+    pt.i_nonmag = p.s0 + mu * p.s1 * pt.yn;
+    stokes(k, 0) = f * pt.mag[0] + (1.0 - f) * pt.i_nonmag;
+    for (int s = 1; s < 4; ++s) stokes(k, s) = f * pt.mag[s];
+    std::memcpy(cache.state.data() + static_cast<std::size_t>(k) * kPointDoubles, &pt, sizeof(Point));
+  }
+}
 
-    if (!jacobian) continue;
-    StokesJacobian& J = *jacobian;
-    const Eigen::Matrix4d kinv = BuildK(e).inverse();
-    const double scale = -mu * p.s1 * f;
-    auto put = [&](MeParam which, const double de[7], double dn_deta) {
-      if (!want(which)) return;
-      const Eigen::Vector4d dy = kinv * DkTimes(de, y);
-      StokesArray& out = J[which];
-      // non-magnetic: dI_n = -mu s1 yn^2 d(eta_n)
-      out(k, 0) = scale * dy[0] - (1.0 - f) * mu * p.s1 * yn * yn * dn_deta;
-      out(k, 1) = scale * dy[1];
-      out(k, 2) = scale * dy[2];
-      out(k, 3) = scale * dy[3];
-    };
-    double de[7];
-    Elements(dB, A, ang, de);
-    put(MeParam::kField, de, 0.0);
-    Elements(val, A * kRadPerDeg, ang_g, de);
-    put(MeParam::kInclination, de, 0.0);
-    Elements(val, A * kRadPerDeg, ang_x, de);
-    put(MeParam::kAzimuth, de, 0.0);
-    Elements(dvl, A, ang, de);
-    put(MeParam::kVlos, de, p.eta0 * hn_vl);
-    Elements(dwd, A, ang, de);
-    put(MeParam::kDopplerWidth, de, p.eta0 * hn_wd);
-    Elements(da, A, ang, de);
-    put(MeParam::kDamping, de, p.eta0 * hn_a);
-    Elements(val, 0.5, ang, de);
-    put(MeParam::kEta0, de, hn);
+void MilneEddingtonModel::JacobianFromCache(const SynthesisCache& cache, StokesJacobian& jacobian,
+                                            const std::array<bool, kMeParamCount>* wanted) const {
+  jacobian.Resize(cache.n);
+  const Geometry geo = Geometry::Of(cache.params);
+  Point pt;
+  for (Eigen::Index k = 0; k < cache.n; ++k) {
+    std::memcpy(&pt, cache.state.data() + static_cast<std::size_t>(k) * kPointDoubles, sizeof(Point));
+    PointJacobian(k, cache.params, geo, pt, jacobian, wanted);
+  }
+}
 
-    if (want(MeParam::kS0)) {
-      StokesArray& js0 = J[MeParam::kS0];
-      js0(k, 0) = 1.0;
-      js0(k, 1) = js0(k, 2) = js0(k, 3) = 0.0;
-    }
-    if (want(MeParam::kS1)) {
-      StokesArray& js1 = J[MeParam::kS1];
-      js1(k, 0) = mu * (f * y[0] + (1.0 - f) * yn);
-      for (int s = 1; s < 4; ++s) js1(k, s) = mu * f * y[s];
-    }
-    if (want(MeParam::kFill)) {
-      StokesArray& jf = J[MeParam::kFill];
-      jf(k, 0) = mag[0] - i_nonmag;
-      for (int s = 1; s < 4; ++s) jf(k, s) = mag[s];
-    }
+void MilneEddingtonModel::PointJacobian(Eigen::Index k, const MeParameters& p, const Geometry& geo, const Point& pt,
+                                        StokesJacobian& J, const std::array<bool, kMeParamCount>* wanted) const {
+  auto want = [wanted](MeParam q) { return wanted == nullptr || (*wanted)[static_cast<int>(q)]; };
+  const double mu = options_.mu, f = p.fill;
+  const double A = 0.5 * p.eta0;
+  const double* y = pt.y;
+  const double yn = pt.yn;
+  const Eigen::Matrix4d kinv = BuildK(pt.e).inverse();
+  const double scale = -mu * p.s1 * f;
+  auto put = [&](MeParam which, const double de[7], double dn_deta) {
+    if (!want(which)) return;
+    const Eigen::Vector4d dy = kinv * DkTimes(de, y);
+    StokesArray& out = J[which];
+    // non-magnetic: dI_n = -mu s1 yn^2 d(eta_n)
+    out(k, 0) = scale * dy[0] - (1.0 - f) * mu * p.s1 * yn * yn * dn_deta;
+    out(k, 1) = scale * dy[1];
+    out(k, 2) = scale * dy[2];
+    out(k, 3) = scale * dy[3];
+  };
+  double de[7];
+  Elements(pt.dB, A, geo.ang, de);
+  put(MeParam::kField, de, 0.0);
+  Elements(pt.val, A * kRadPerDeg, geo.ang_g, de);
+  put(MeParam::kInclination, de, 0.0);
+  Elements(pt.val, A * kRadPerDeg, geo.ang_x, de);
+  put(MeParam::kAzimuth, de, 0.0);
+  Elements(pt.dvl, A, geo.ang, de);
+  put(MeParam::kVlos, de, p.eta0 * pt.hn_vl);
+  Elements(pt.dwd, A, geo.ang, de);
+  put(MeParam::kDopplerWidth, de, p.eta0 * pt.hn_wd);
+  Elements(pt.da, A, geo.ang, de);
+  put(MeParam::kDamping, de, p.eta0 * pt.hn_a);
+  Elements(pt.val, 0.5, geo.ang, de);
+  put(MeParam::kEta0, de, pt.hn);
+
+  if (want(MeParam::kS0)) {
+    StokesArray& js0 = J[MeParam::kS0];
+    js0(k, 0) = 1.0;
+    js0(k, 1) = js0(k, 2) = js0(k, 3) = 0.0;
+  }
+  if (want(MeParam::kS1)) {
+    StokesArray& js1 = J[MeParam::kS1];
+    js1(k, 0) = mu * (f * y[0] + (1.0 - f) * yn);
+    for (int s = 1; s < 4; ++s) js1(k, s) = mu * f * y[s];
+  }
+  if (want(MeParam::kFill)) {
+    StokesArray& jf = J[MeParam::kFill];
+    jf(k, 0) = pt.mag[0] - pt.i_nonmag;
+    for (int s = 1; s < 4; ++s) jf(k, s) = pt.mag[s];
   }
 }
 

@@ -146,6 +146,48 @@ TEST(UnnoRachkovsky, JacobianMatchesCentralDifferencesForEveryParameter) {
   }
 }
 
+// The two-step form used by the inversion (spectra + cache now, Jacobian from the cache later, only for
+// the wanted parameters): spectra identical to the one-step call, wanted columns against central
+// differences as above, the columns not wanted left untouched; with fill = 1 not wanted as well.
+TEST(UnnoRachkovsky, CachedJacobianMatchesCentralDifferencesForTheWantedParameters) {
+  const MilneEddingtonModel model({Fe6301(), Fe6302(0.8)});
+  const Eigen::ArrayXd w = UniformWavelengthGrid(630.2, 0.3, 121);
+  for (double fill : {0.7, 1.0}) {
+    MeParameters p0 = SomeParameters();
+    p0.fill = fill;
+    std::array<bool, kMeParamCount> wanted;
+    wanted.fill(true);
+    wanted[static_cast<int>(MeParam::kDamping)] = false;
+    wanted[static_cast<int>(MeParam::kFill)] = fill != 1.0;
+    StokesArray one, two;
+    model.Synthesize(w, p0, one);
+    MilneEddingtonModel::SynthesisCache cache;
+    model.Synthesize(w, p0, two, cache, &wanted);
+    EXPECT_EQ(MaxAbs((one - two).reshaped()), 0.0) << "fill " << fill;
+    StokesJacobian jac;
+    jac.Resize(w.size());
+    for (auto& d : jac.d) d.setConstant(-7.0);  // marks columns that must stay untouched
+    model.JacobianFromCache(cache, jac, &wanted);
+    const double steps[kMeParamCount] = {1e-3, 1e-4, 1e-4, 1e-3, 1e-8, 1e-6, 1e-5, 1e-6, 1e-6, 1e-6};
+    for (int k = 0; k < kMeParamCount; ++k) {
+      const MeParam which = static_cast<MeParam>(k);
+      if (!wanted[k]) {
+        EXPECT_TRUE((jac[which] == -7.0).all()) << MeParamName(which) << " was written";
+        continue;
+      }
+      MeParameters pp = p0, pm = p0;
+      pp.Set(which, p0.Get(which) + steps[k]);
+      pm.Set(which, p0.Get(which) - steps[k]);
+      const StokesArray fd = (Synth(model, w, pp) - Synth(model, w, pm)) / (2.0 * steps[k]);
+      for (int c = 0; c < 4; ++c) {
+        const double scale = std::max(MaxAbs(fd.col(c)), MaxAbs(jac[which].col(c)));
+        EXPECT_LE(MaxAbs(jac[which].col(c) - fd.col(c)), kJacobianRelTol * scale + 1e-10)
+            << MeParamName(which) << " Stokes " << "IQUV"[c] << " fill " << fill;
+      }
+    }
+  }
+}
+
 TEST(UnnoRachkovsky, JacobianSurvivesMacroturbulenceAndInstrumentConvolution) {
   SynthesisOptions o;
   o.macroturbulence_kms = 1.2;

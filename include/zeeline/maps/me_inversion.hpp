@@ -133,7 +133,8 @@ struct MeResult {
 struct MeWorkspace {
   Eigen::ArrayXd wavelength_nm;
   StokesArray observed, model, trial;
-  StokesJacobian jacobian, trial_jacobian;
+  StokesJacobian jacobian;
+  MilneEddingtonModel::SynthesisCache trial_cache;  ///< a trial step's spectra state (Jacobian on acceptance)
 };
 
 class MeInverter {

@@ -92,6 +92,21 @@ class MilneEddingtonModel {
                   StokesArray& stokes, StokesJacobian* jacobian = nullptr,
                   const std::array<bool, kMeParamCount>* wanted = nullptr) const;
 
+  /// Two-step form of the same: the spectra now, keeping in `cache` what the Jacobian needs (the Voigt
+  /// sums and their derivatives per wavelength), and the Jacobian later from the cache, only if the caller
+  /// wants it (a rejected Levenberg-Marquardt trial costs the spectra alone). Results equal the one-step
+  /// call bit for bit. The cache holds one point's state per wavelength (no allocation once sized).
+  struct SynthesisCache {
+    std::vector<double> state;
+    MeParameters params;
+    Eigen::Index n = 0;
+  };
+  void Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wavelength_nm, const MeParameters& p,
+                  StokesArray& stokes, SynthesisCache& cache,
+                  const std::array<bool, kMeParamCount>* wanted = nullptr) const;
+  void JacobianFromCache(const SynthesisCache& cache, StokesJacobian& jacobian,
+                         const std::array<bool, kMeParamCount>* wanted = nullptr) const;
+
   /// The magnetic component's propagation matrix at one wavelength (for tests and diagnostics).
   PropagationMatrix Propagation(double wavelength_nm, const MeParameters& p) const;
 
@@ -112,6 +127,12 @@ class MilneEddingtonModel {
     double relative_strength;
     int first_component, component_count;
   };
+  struct Point;     // the per-wavelength state of a synthesis (unno_rachkovsky.cpp)
+  struct Geometry;  // angular weights and their derivatives
+  void Evaluate(double lambda, const MeParameters& p, bool derivatives, bool need_nonmag, Point& pt) const;
+  void PointJacobian(Eigen::Index k, const MeParameters& p, const Geometry& geo, const Point& pt, StokesJacobian& J,
+                     const std::array<bool, kMeParamCount>* wanted) const;
+
   std::vector<CompactLine> lines_;
   std::vector<Component> components_;
   MeOptions options_;
