@@ -162,7 +162,7 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
       const double aq = sqx / sxx, au = sux / sxx;
       const double sigma_q = noise.noise_Q / std::sqrt(sxx), sigma_u = noise.noise_U / std::sqrt(sxx);
       const double sa = std::sqrt(0.5 * (sigma_q * sigma_q + sigma_u * sigma_u));
-      const double p = std::hypot(aq, au);  // = B_T^2, biased upward by noise
+      const double p = std::sqrt(aq * aq + au * au);  // = B_T^2, biased upward by noise (G^4 << DBL_MAX)
       const double p0 = std::sqrt(std::max(p * p - sa * sa, 0.0));  // Wardle & Kronberg (1974) debiasing
       r.btrans_snr = sa > 0.0 ? p / sa : HUGE_VAL;
       r.btrans_sq_err_gauss2 = sa;
