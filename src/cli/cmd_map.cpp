@@ -209,7 +209,9 @@ void RunMap(const MapArgs& a) {
   if (!IsOutputRank()) return;  // MPI: rank 0 gathered the maps and writes them
 
   const auto t_write = std::chrono::steady_clock::now();
-  const std::vector<ImageHdu> hdus = MapHdus(maps, o);
+  long flagged = 0;
+  for (auto q : maps.quality) flagged += q != 0;
+  const std::vector<ImageHdu> hdus = MapHdus(std::move(maps), o);  // the map slots move into the HDUs
 
   FitsWriteOptions w;
   w.overwrite = a.overwrite;
@@ -243,8 +245,6 @@ void RunMap(const MapArgs& a) {
   }
 
   if (!a.quiet) {
-    long flagged = 0;
-    for (auto q : maps.quality) flagged += q != 0;
     std::printf("maps: %s (%ld x %ld pixels, %zu HDUs)\n", a.output.c_str(), maps.nx, maps.ny, hdus.size() + 1);
     std::printf("line: %s\n", line.description.c_str());
     if (!split_regime.empty()) std::printf("split: %s\n", split_regime.c_str());
@@ -366,7 +366,11 @@ MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const Cu
   return setup;
 }
 
-std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {
+namespace {
+// movable_slots (= &maps.slots, or null): the float maps go in as float32 payloads moved out of it (no copy;
+// `map` of a large cube would otherwise hold every map twice, in float and in double).
+std::vector<ImageHdu> AssembleMapHdus(const FieldMaps& maps, const FieldMapOptions& o,
+                                      std::vector<std::vector<float>>* movable_slots) {
   // Assemble the HDUs: only the maps that carry information for this cube and method.
   std::vector<ImageHdu> hdus;
   auto add = [&](int slot) {
@@ -374,7 +378,12 @@ std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {
     bool any = false;
     for (float x : v) any |= std::isfinite(x);
     if (!any) return;
-    hdus.push_back(MakeMap(MapSlotName(slot), maps.nx, maps.ny, std::vector<double>(v.begin(), v.end())));
+    if (movable_slots) {
+      hdus.push_back(MakeMap(MapSlotName(slot), maps.nx, maps.ny, {}));
+      hdus.back().values_f32 = std::move((*movable_slots)[static_cast<std::size_t>(slot)]);
+    } else {
+      hdus.push_back(MakeMap(MapSlotName(slot), maps.nx, maps.ny, std::vector<double>(v.begin(), v.end())));
+    }
   };
   for (int s = 0; s < kSlotCount; ++s) add(s);
   ImageHdu method = MakeMap(map_names::kMethod, maps.nx, maps.ny,
@@ -415,6 +424,15 @@ std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {
   hdus.push_back(quality);
 
   return hdus;
+}
+}  // namespace
+
+std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {
+  return AssembleMapHdus(maps, o, nullptr);
+}
+
+std::vector<ImageHdu> MapHdus(FieldMaps&& maps, const FieldMapOptions& o) {
+  return AssembleMapHdus(maps, o, &maps.slots);
 }
 
 void AddMapCommand(CLI::App& app, int argc, char** argv) {

@@ -53,5 +53,8 @@ MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const Cu
 /// The image HDUs of the map file in order: each map slot that has a finite value, METHOD, AZIM_PICK (when
 /// disambiguated) and QUALITY, with their keywords (docs/fits.md).
 std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o);
+/// The same HDUs with the float maps moved in as float32 payloads (ImageHdu::values_f32, no copy; the
+/// file is the same); `maps` keeps everything but its map slots.
+std::vector<ImageHdu> MapHdus(FieldMaps&& maps, const FieldMapOptions& o);
 
 }  // namespace zeeline::cli

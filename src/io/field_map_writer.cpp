@@ -159,7 +159,10 @@ struct Writer {
     if (!wcs.empty()) WcsCards(wcs, static_cast<int>(naxes.size()) != 2 ? static_cast<int>(naxes.size()) : 0);
     for (const auto& kv : h.keywords) Key(kv);
     const auto n = static_cast<LONGLONG>(h.values.size());
-    if (h.type == FitsPixelType::kFloat32 || h.type == FitsPixelType::kFloat64) {
+    if (h.values.empty() && !h.values_f32.empty()) {  // kFloat32 only (ValidateImages)
+      fits_write_img(f, TFLOAT, 1, static_cast<LONGLONG>(h.values_f32.size()), const_cast<float*>(h.values_f32.data()),
+                     &status);
+    } else if (h.type == FitsPixelType::kFloat32 || h.type == FitsPixelType::kFloat64) {
       fits_write_img(f, TDOUBLE, 1, n, const_cast<double*>(h.values.data()), &status);
     } else {
       const double lo = h.type == FitsPixelType::kInt16 ? -32768.0 : -2147483648.0;
@@ -193,8 +196,11 @@ void ValidateImages(const std::string& path, const std::vector<ImageHdu>& images
       if (a <= 0) throw FitsError(where + "axis length " + std::to_string(a) + " must be > 0");
       n *= a;
     }
-    if (n != static_cast<long double>(h.values.size()))
-      throw FitsError(where + "has " + std::to_string(h.values.size()) + " values but the axes need " +
+    if (!h.values_f32.empty() && (!h.values.empty() || h.type != FitsPixelType::kFloat32))
+      throw FitsError(where + "a float32 payload needs a float32 image and no double values");
+    const std::size_t count = h.values.empty() ? h.values_f32.size() : h.values.size();
+    if (n != static_cast<long double>(count))
+      throw FitsError(where + "has " + std::to_string(count) + " values but the axes need " +
                       Num(static_cast<double>(n)));
     if (AsciiOnly(h.bunit) != h.bunit) throw FitsError(where + "BUNIT must be ASCII");
   }

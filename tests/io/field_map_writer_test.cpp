@@ -204,6 +204,36 @@ TEST(FieldMapWriter, RefusesToOverwriteUnlessAskedAndLeavesNoTemporaryFiles) {
   EXPECT_EQ(files, 1);  // no leftover temporary file
 }
 
+// A float32 payload (ImageHdu::values_f32, how `map` writes large maps without a double copy) reads back
+// the same samples, NaN included, as float32 data; it is refused with a double payload or an integer type.
+TEST(FieldMapWriter, Float32PayloadRoundTripsAndIsRefusedWhereItCannotApply) {
+  TempDir dir;
+  const std::string path = dir.File("maps.fits");
+  ImageHdu h = MakeMap("B_LOS", 3, 2, {});
+  h.values_f32 = {1.5f, -2.25f, std::numeric_limits<float>::quiet_NaN(), 3.0e-7f, 1234.5f, -0.0f};
+  WriteFieldMaps(path, {h}, "", {});
+  const auto back = ReadImageHdus(path);
+  ASSERT_EQ(back.size(), 1u);
+  EXPECT_EQ(back[0].type, FitsPixelType::kFloat32);
+  ASSERT_EQ(back[0].values.size(), h.values_f32.size());
+  for (std::size_t k = 0; k < h.values_f32.size(); ++k) {
+    if (std::isnan(h.values_f32[k])) EXPECT_TRUE(std::isnan(back[0].values[k]));
+    else EXPECT_EQ(back[0].values[k], static_cast<double>(h.values_f32[k])) << k;
+  }
+  ExpectFitsverifyClean(path);
+  const std::string bad = dir.File("bad.fits");
+  ImageHdu both = h;
+  both.values.assign(6, 0.0);
+  EXPECT_THROW(WriteFieldMaps(bad, {both}, "", {}), FitsError);
+  ImageHdu integer = h;
+  integer.type = FitsPixelType::kInt16;
+  EXPECT_THROW(WriteFieldMaps(bad, {integer}, "", {}), FitsError);
+  ImageHdu short_payload = h;
+  short_payload.values_f32.pop_back();
+  EXPECT_THROW(WriteFieldMaps(bad, {short_payload}, "", {}), FitsError);
+  EXPECT_FALSE(std::filesystem::exists(bad));
+}
+
 TEST(FieldMapWriter, BadMapsAreRejectedBeforeAnyFileIsCreated) {
   TempDir dir;
   const std::string path = dir.File("maps.fits");

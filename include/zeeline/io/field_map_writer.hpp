@@ -60,6 +60,9 @@ struct ImageHdu {
   std::string bunit;          ///< physical unit ('' = dimensionless, BUNIT omitted)
   std::vector<long> naxes;    ///< FITS order: {nx, ny} for a map (NAXIS1 = x varies fastest)
   std::vector<double> values; ///< FITS order: values[y * nx + x] for a map; NaN = undefined (floats)
+  /// Alternative payload of a kFloat32 image, used when `values` is empty: large maps are written from
+  /// their float samples without a double copy (the file is the same).
+  std::vector<float> values_f32;
   FitsPixelType type = FitsPixelType::kFloat32;
   /// Copy the file's spatial WCS onto axes 1-2 (2-D images and cubes whose first two axes are x, y).
   bool spatial_wcs = true;
