@@ -175,8 +175,7 @@ void RunWorker(CubeReader& reader, const FieldMapEngine& engine, const TaskPlan&
   std::vector<char> out[2];
   MPI_Request sent[2] = {MPI_REQUEST_NULL, MPI_REQUEST_NULL};
   int slot = 0;
-  request();
-  long next = receive();
+  long next = receive();  // rank 0 sends the first task unasked
   while (next >= 0) {
     const long t = next;
     request();  // the answer waits for us while we work
@@ -275,6 +274,17 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
     }
   };
 
+  // Every rank's first task goes out unasked, before rank 0 starts on its own: nobody waits at the start.
+  for (int r = 1; r < size; ++r) {
+    const std::int64_t t = take();
+    MPI_Send(&t, 1, MPI_INT64_T, r, kTagTask, MPI_COMM_WORLD);
+    if (t < 0) {
+      ++stopped;
+    } else {
+      ++assigned_remote;
+      ++report.tasks_per_rank[static_cast<std::size_t>(r)];
+    }
+  }
   RawCubeTile row;
   while (true) {
     serve();

@@ -5,7 +5,8 @@
 // each, or by default guided sizes (large first, small last, at most one reader tile; see PlanTasks).
 // Rank 0 hands the tasks out in row order, one at a time, to whichever rank asks (dynamic: a
 // Milne-Eddington pixel costs several times a weak-field one, so equal shares would leave ranks idle);
-// every rank asks for its next task while it works on the current one, so it never waits for an answer.
+// each rank's first task is sent unasked, and every rank asks for its next task while it works on the
+// current one, so it never waits for an answer.
 // Each rank opens the cube itself and reads only the rows of its own tasks with cfitsio (rank 0 also reads
 // the first tile once, to choose the spectral layout exactly as a one-process run does, and broadcasts
 // it). Inside a rank, pixels are spread over its OpenMP threads (FieldMapOptions::threads).
