@@ -286,6 +286,11 @@ HduData ReadImageHdu(fitsfile* f, const std::string& path, int hdu, const std::s
     ~Free() { wcsvfree(n, w); }
   } free_wcs{&nwcs, &wcs};
   wcsprm& w = wcs[0];
+  // wcslib sizes ctype/cunit/pc by its own axis count (WCSAXES, or the highest axis number in the keywords),
+  // which may be below NAXIS: reading axis 2 of a 1-axis WCS overran the array (found by fuzz_fits_header).
+  if (w.naxis < naxis)
+    throw SpectrumError(name + ": the WCS describes " + std::to_string(w.naxis) + " axis(es) but NAXIS = " +
+                        std::to_string(naxis) + " (check WCSAXES and CTYPE" + std::to_string(naxis) + ")");
   auto trim = [](const char* c) { return Trim(std::string(c)); };
   const std::string ctype1 = trim(w.ctype[0]);
   const std::string code = ctype1.substr(0, 4);

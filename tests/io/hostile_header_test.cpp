@@ -153,5 +153,38 @@ TEST(HostileHeader, SpectrumReaderRefusesAnUnterminatedString) {
   }
 }
 
+TEST(HostileHeader, SpectrumWcsWithFewerAxesThanNaxisIsRefused) {
+  // Found by fuzz_fits_header under ASan: a 2-axis spectrum whose NAXIS card wcslib cannot read (cfitsio can)
+  // got a 1-axis WCS, and the reader looked at CTYPE2 past the end of wcslib's array.
+  test::TempDir dir;
+  const std::string path = dir.File("spectrum2.fits");
+  {
+    fitsfile* f = nullptr;
+    int status = 0;
+    long n[2] = {16, 4};
+    fits_create_file(&f, path.c_str(), &status);
+    fits_create_img(f, DOUBLE_IMG, 2, n, &status);
+    char ctype[] = "AWAV", cunit[] = "nm";
+    fits_write_key(f, TSTRING, "CTYPE1", ctype, nullptr, &status);
+    fits_write_key(f, TSTRING, "CUNIT1", cunit, nullptr, &status);
+    fits_write_key_dbl(f, "CRPIX1", 1.0, -15, nullptr, &status);
+    fits_write_key_dbl(f, "CRVAL1", 630.0, -15, nullptr, &status);
+    fits_write_key_dbl(f, "CDELT1", 0.01, -15, nullptr, &status);
+    std::vector<double> v(64, 1.0);
+    fits_write_img(f, TDOUBLE, 1, 64, v.data(), &status);
+    fits_close_file(f, &status);
+    ASSERT_EQ(status, 0);
+  }
+  PatchCard(path, "NAXIS   =", "NAXIS   /=                    2");  // the reproducer's card
+  try {
+    ReadSpectrumFits(path);
+    FAIL() << "a 1-axis WCS was accepted for a 2-axis spectrum";
+  } catch (const SpectrumError& e) {
+    const std::string m = e.what();
+    EXPECT_NE(m.find("spectrum2.fits"), std::string::npos) << m;
+    EXPECT_NE(m.find("NAXIS = 2"), std::string::npos) << m;
+  }
+}
+
 }  // namespace
 }  // namespace zeeline
