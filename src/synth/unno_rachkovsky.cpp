@@ -168,6 +168,7 @@ struct MilneEddingtonModel::Point {
   double y[4];
   double mag[4];
   double yn = 0.0, i_nonmag = 0.0;
+  double stokes[4];  // the mixture f * magnetic + (1 - f) * non-magnetic
 };
 
 struct MilneEddingtonModel::Geometry {
@@ -226,6 +227,22 @@ void MilneEddingtonModel::Evaluate(double lambda, const MeParameters& p, bool de
   }
 }
 
+void MilneEddingtonModel::SynthesizePoint(double lambda, const MeParameters& p, const Geometry& geo, bool derivatives,
+                                          bool need_nonmag, Point& pt) const {
+  Evaluate(lambda, p, derivatives, need_nonmag, pt);
+  const double mu = options_.mu, f = p.fill;
+  Elements(pt.val, 0.5 * p.eta0, geo.ang, pt.e);
+  pt.e[0] += 1.0;
+  UnnoRachkovskyY(pt.e, pt.y);
+  pt.mag[0] = p.s0 + mu * p.s1 * pt.y[0];
+  for (int s = 1; s < 4; ++s) pt.mag[s] = mu * p.s1 * pt.y[s];
+  const double eta_n = 1.0 + p.eta0 * pt.hn;
+  pt.yn = need_nonmag ? 1.0 / eta_n : 0.0;
+  pt.i_nonmag = p.s0 + mu * p.s1 * pt.yn;
+  pt.stokes[0] = f * pt.mag[0] + (1.0 - f) * pt.i_nonmag;
+  for (int s = 1; s < 4; ++s) pt.stokes[s] = f * pt.mag[s];
+}
+
 void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wavelength_nm,
                                      const MeParameters& p, StokesArray& stokes,
                                      StokesJacobian* jacobian, const std::array<bool, kMeParamCount>* wanted) const {
@@ -234,22 +251,11 @@ void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wav
   if (jacobian) jacobian->Resize(n);
   auto want = [wanted](MeParam q) { return wanted == nullptr || (*wanted)[static_cast<int>(q)]; };
   const bool need_nonmag = p.fill != 1.0 || (jacobian != nullptr && want(MeParam::kFill));
-  const double mu = options_.mu, f = p.fill;
   const Geometry geo = Geometry::Of(p);
-  const Angular& ang = geo.ang;
   Point pt;
   for (Eigen::Index k = 0; k < n; ++k) {
-    Evaluate(wavelength_nm[k], p, jacobian != nullptr, need_nonmag, pt);
-    Elements(pt.val, 0.5 * p.eta0, ang, pt.e);
-    pt.e[0] += 1.0;
-    UnnoRachkovskyY(pt.e, pt.y);
-    pt.mag[0] = p.s0 + mu * p.s1 * pt.y[0];
-    for (int s = 1; s < 4; ++s) pt.mag[s] = mu * p.s1 * pt.y[s];
-    const double eta_n = 1.0 + p.eta0 * pt.hn;
-    pt.yn = need_nonmag ? 1.0 / eta_n : 0.0;
-    pt.i_nonmag = p.s0 + mu * p.s1 * pt.yn;
-    stokes(k, 0) = f * pt.mag[0] + (1.0 - f) * pt.i_nonmag;
-    for (int s = 1; s < 4; ++s) stokes(k, s) = f * pt.mag[s];
+    SynthesizePoint(wavelength_nm[k], p, geo, jacobian != nullptr, need_nonmag, pt);
+    for (int s = 0; s < 4; ++s) stokes(k, s) = pt.stokes[s];
     if (jacobian) PointJacobian(k, p, geo, pt, *jacobian, wanted);
   }
 }
@@ -266,22 +272,11 @@ void MilneEddingtonModel::Synthesize(const Eigen::Ref<const Eigen::ArrayXd>& wav
   cache.params = p;
   cache.n = n;
   const bool need_nonmag = p.fill != 1.0 || wanted == nullptr || (*wanted)[static_cast<int>(MeParam::kFill)];
-  const double mu = options_.mu, f = p.fill;
   const Geometry geo = Geometry::Of(p);
-  const Angular& ang = geo.ang;
   Point pt;
   for (Eigen::Index k = 0; k < n; ++k) {
-    Evaluate(wavelength_nm[k], p, true, need_nonmag, pt);
-    Elements(pt.val, 0.5 * p.eta0, ang, pt.e);
-    pt.e[0] += 1.0;
-    UnnoRachkovskyY(pt.e, pt.y);
-    pt.mag[0] = p.s0 + mu * p.s1 * pt.y[0];
-    for (int s = 1; s < 4; ++s) pt.mag[s] = mu * p.s1 * pt.y[s];
-    const double eta_n = 1.0 + p.eta0 * pt.hn;
-    pt.yn = need_nonmag ? 1.0 / eta_n : 0.0;
-    pt.i_nonmag = p.s0 + mu * p.s1 * pt.yn;
-    stokes(k, 0) = f * pt.mag[0] + (1.0 - f) * pt.i_nonmag;
-    for (int s = 1; s < 4; ++s) stokes(k, s) = f * pt.mag[s];
+    SynthesizePoint(wavelength_nm[k], p, geo, true, need_nonmag, pt);
+    for (int s = 0; s < 4; ++s) stokes(k, s) = pt.stokes[s];
     std::memcpy(cache.state.data() + static_cast<std::size_t>(k) * kPointDoubles, &pt, sizeof(Point));
   }
 }
@@ -292,7 +287,7 @@ void MilneEddingtonModel::JacobianFromCache(const SynthesisCache& cache, StokesJ
   const Geometry geo = Geometry::Of(cache.params);
   Point pt;
   for (Eigen::Index k = 0; k < cache.n; ++k) {
-    std::memcpy(&pt, cache.state.data() + static_cast<std::size_t>(k) * kPointDoubles, sizeof(Point));
+    std::memcpy(static_cast<void*>(&pt), cache.state.data() + static_cast<std::size_t>(k) * kPointDoubles, sizeof(Point));
     PointJacobian(k, cache.params, geo, pt, jacobian, wanted);
   }
 }

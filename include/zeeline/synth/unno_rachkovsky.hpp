@@ -130,6 +130,9 @@ class MilneEddingtonModel {
   struct Point;     // the per-wavelength state of a synthesis (unno_rachkovsky.cpp)
   struct Geometry;  // angular weights and their derivatives
   void Evaluate(double lambda, const MeParameters& p, bool derivatives, bool need_nonmag, Point& pt) const;
+  // Evaluate, then the propagation-matrix elements, the Unno-Rachkovsky solution and the Stokes mixture.
+  void SynthesizePoint(double lambda, const MeParameters& p, const Geometry& geo, bool derivatives, bool need_nonmag,
+                       Point& pt) const;
   void PointJacobian(Eigen::Index k, const MeParameters& p, const Geometry& geo, const Point& pt, StokesJacobian& J,
                      const std::array<bool, kMeParamCount>* wanted) const;
 
