@@ -8,7 +8,8 @@ is added to the clean Stokes vector before the crosstalk (the instrument sees th
 
 Independent of zeeline: numpy and astropy only. Weak-field profiles (Landi Degl'Innocenti & Landolfi
 2004, eqs. 9.77 and 9.83) of a Gaussian line, I = 1 - 0.6 exp(-(dl/0.0035 nm)^2), with fields of
-200..1800 G, random inclinations and azimuths and line-of-sight velocities of +-1 km/s.
+100..500 G (g times the Zeeman shift at most 0.66 of the Doppler width, so |Q|, |U|, |V| < I everywhere),
+random inclinations and azimuths and line-of-sight velocities of +-1 km/s.
 The file's axes are in an unusual order on purpose -- NAXIS1 wavelength (AWAV, nm), NAXIS2 STOKES,
 NAXIS3/NAXIS4 helioprojective x/y in arcsec -- so the corrected cube shows that the layout is kept.
 
@@ -30,7 +31,7 @@ STEP_NM = 0.0017
 def clean_cube(seed):
     rng = np.random.default_rng(seed)
     wl = LAMBDA0 - 0.5 * (NW - 1) * STEP_NM + STEP_NM * np.arange(NW)
-    b = rng.uniform(200.0, 1800.0, (NY, NX))
+    b = rng.uniform(100.0, 500.0, (NY, NX))  # g dl_B <= 0.66 Doppler widths: |Q|, |U|, |V| < I
     gamma = np.radians(rng.uniform(0.0, 180.0, (NY, NX)))
     chi = np.radians(rng.uniform(0.0, 180.0, (NY, NX)))
     v = rng.uniform(-1.0, 1.0, (NY, NX))

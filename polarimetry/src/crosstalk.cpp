@@ -5,6 +5,7 @@
 #include <sstream>
 
 #include "zeeline/core/errors.hpp"
+#include "zeeline/maps/data_sanity.hpp"
 
 namespace zeeline::polarimetry {
 namespace {
@@ -25,6 +26,48 @@ struct Sums {  // through-origin regression y = c x
     const double rss = std::max(yy - 2.0 * c * xy + c * c * xx, 0.0);
     return std::sqrt(rss / static_cast<double>(n - 1)) / std::sqrt(xx);
   }
+};
+
+// The data-sanity check of the maps (maps/data_sanity.hpp) applied to whole pixels, so that a fill value, a
+// NaN, an empty pixel or a wrong cube layout stays out of every regression instead of dominating it.
+class PixelScreen {
+ public:
+  PixelScreen(const CubeInfo& info, const int idx[4]) : info_(info) {
+    for (int s = 0; s < 4; ++s) idx_[s] = idx[s];
+  }
+  // The cube's level from the first tile's clean I samples (strided to ~1e6), as the maps engine does.
+  void SetLevel(const CubeTile& first_tile) {
+    const DataSanityLimits type_range = MakeSanityLimits(info_.bitpix, 0.0, 0.0);
+    const std::size_t nw = info_.wavelength_nm.size();
+    const std::size_t stride = std::max<std::size_t>(1, static_cast<std::size_t>(first_tile.n_pixels()) * nw / (1u << 20));
+    std::vector<double> levels;
+    for (long p = 0; p < first_tile.n_pixels(); ++p) {
+      const PixelSpectrum s = Spectrum(first_tile, p);
+      if (CheckSampleRange(s, type_range)) continue;
+      for (std::size_t k = static_cast<std::size_t>(p) % stride; k < nw; k += stride) levels.push_back(s.I[k]);
+    }
+    limits_ = MakeSanityLimits(info_.bitpix, MedianLevel(std::move(levels)), 0.0);
+  }
+  void SetContinuum(const std::vector<char>& cont) {
+    continuum_.clear();
+    for (std::size_t w = 0; w < cont.size(); ++w)
+      if (cont[w]) continuum_.push_back(w);
+  }
+  // QUALITY bits of the failed tests (0: usable). Before SetContinuum only the sample range is checked.
+  std::uint32_t Check(const CubeTile& tile, long p) const {
+    const PixelSpectrum s = Spectrum(tile, p);
+    return continuum_.empty() ? CheckSampleRange(s, limits_) : CheckPixelSanity(s, continuum_, limits_);
+  }
+
+ private:
+  PixelSpectrum Spectrum(const CubeTile& tile, long p) const {
+    return PixelSpectrum{info_.wavelength_nm.data(), info_.wavelength_nm.size(), tile.Spectrum(p, idx_[0]),
+                         tile.Spectrum(p, idx_[1]), tile.Spectrum(p, idx_[2]), tile.Spectrum(p, idx_[3])};
+  }
+  const CubeInfo& info_;
+  int idx_[4];
+  DataSanityLimits limits_;
+  std::vector<std::size_t> continuum_;
 };
 
 }  // namespace
@@ -70,6 +113,9 @@ CrosstalkResult EstimateCrosstalk(CubeReader& reader, const CrosstalkOptions& o)
   const long nw = info.n_wavelength();
   CrosstalkResult r;
   CubeTile tile;
+  PixelScreen screen(info, idx);
+  reader.Rewind();
+  if (reader.NextTile(tile)) screen.SetLevel(tile);
 
   // Pass 1: mean I profile -> continuum samples.
   std::vector<char> cont(static_cast<std::size_t>(nw), 0);
@@ -83,9 +129,12 @@ CrosstalkResult EstimateCrosstalk(CubeReader& reader, const CrosstalkOptions& o)
   } else {
     std::vector<double> sum(static_cast<std::size_t>(nw), 0.0);
     std::vector<long long> count(static_cast<std::size_t>(nw), 0);
+    long long clean = 0;
     reader.Rewind();
     while (reader.NextTile(tile))
       for (long p = 0; p < tile.n_pixels(); ++p) {
+        if (screen.Check(tile, p)) continue;
+        ++clean;
         const double* i = tile.Spectrum(p, idx[0]);
         for (long w = 0; w < nw; ++w)
           if (std::isfinite(i[w])) {
@@ -93,6 +142,9 @@ CrosstalkResult EstimateCrosstalk(CubeReader& reader, const CrosstalkOptions& o)
             ++count[static_cast<std::size_t>(w)];
           }
       }
+    if (clean == 0)
+      throw CalibrationError(info.path + ": no usable pixel: every pixel has NaN/Inf or absurd samples "
+                             "(data-sanity check, docs/errors.md)");
     std::vector<double> mean(static_cast<std::size_t>(nw), std::nan(""));
     for (long w = 0; w < nw; ++w)
       if (count[static_cast<std::size_t>(w)] > 0)
@@ -119,10 +171,19 @@ CrosstalkResult EstimateCrosstalk(CubeReader& reader, const CrosstalkOptions& o)
                            " needed)" + (r.continuum_automatic ? "; give them with --continuum START:END,..." : " in --continuum"));
 
   // Pass 2: I -> Q, U, V on the continuum.
+  screen.SetContinuum(cont);
   Sums sq, su, sv;
+  long long pixels = 0;
   reader.Rewind();
   while (reader.NextTile(tile))
     for (long p = 0; p < tile.n_pixels(); ++p) {
+      ++pixels;
+      if (const std::uint32_t bits = screen.Check(tile, p)) {
+        ++r.rejected_pixels;
+        for (int b = 0; b < 32; ++b)
+          if (bits & (1u << b)) ++r.rejected_by_bit[b];
+        continue;
+      }
       const double *i = tile.Spectrum(p, idx[0]), *q = tile.Spectrum(p, idx[1]), *u = tile.Spectrum(p, idx[2]),
                    *v = tile.Spectrum(p, idx[3]);
       for (long w = 0; w < nw; ++w)
@@ -133,6 +194,17 @@ CrosstalkResult EstimateCrosstalk(CubeReader& reader, const CrosstalkOptions& o)
           sv.Add(i[w], v[w]);
         }
     }
+  if (r.rejected_pixels > 0) {
+    std::string why;
+    for (int b = 0; b < 32; ++b)
+      if (r.rejected_by_bit[b] > 0)
+        why += std::string(why.empty() ? "" : ", ") + QualityBitNames(1u << b).front() + " " + std::to_string(r.rejected_by_bit[b]);
+    if (r.rejected_pixels == pixels)
+      throw CalibrationError(info.path + ": no usable pixel: all " + std::to_string(pixels) +
+                             " fail the data-sanity check (" + why + "; docs/errors.md)");
+    r.warnings.push_back(std::to_string(r.rejected_pixels) + " of " + std::to_string(pixels) +
+                         " pixels left out by the data-sanity check (" + why + ")");
+  }
   if (sq.n < 2 || !(sq.xx > 0.0))
     throw CalibrationError(info.path + ": no usable continuum samples (all NaN or zero intensity)");
   r.continuum_samples = sq.n;
@@ -151,6 +223,7 @@ CrosstalkResult EstimateCrosstalk(CubeReader& reader, const CrosstalkOptions& o)
   reader.Rewind();
   while (reader.NextTile(tile))
     for (long p = 0; p < tile.n_pixels(); ++p) {
+      if (screen.Check(tile, p)) continue;
       const double *i = tile.Spectrum(p, idx[0]), *q = tile.Spectrum(p, idx[1]), *u = tile.Spectrum(p, idx[2]),
                    *v = tile.Spectrum(p, idx[3]);
       for (long w = 0; w < nw; ++w) {

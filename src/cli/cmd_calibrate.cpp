@@ -299,6 +299,7 @@ void RunCrosstalk(const CrosstalkArgs& a) {
     j.Key("continuum_automatic").Value(r.continuum_automatic);
     j.Key("continuum_samples").Value(r.continuum_samples);
     j.Key("strong_v_samples").Value(r.strong_v_samples);
+    j.Key("rejected_pixels").Value(r.rejected_pixels);
     j.Key("v_noise").Value(r.v_noise);
     if (a.correct)
       j.Key("corrected_output").Value(a.output);

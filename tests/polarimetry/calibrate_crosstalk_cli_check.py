@@ -73,6 +73,39 @@ def main():
                 v = run(["fitsverify", "-q", "-e", out])
                 if v.returncode != 0 or "OK" not in v.stdout:
                     failures.append("fitsverify: " + v.stdout + v.stderr)
+        # Hostile pixels (data-sanity check, docs/errors.md): a fill value of 1e30, a NaN, a pixel with I < 0
+        # and one with |V| > I. Each is left out whole and counted; without the check the 1e30 alone would
+        # dominate sum(I^2) and every coefficient. The injected values must still be recovered.
+        wl, st = sim.clean_cube(23)
+        bad = sim.add_crosstalk(st)
+        bad[3, 4, 0, 7] = 1e30
+        bad[5, 6, 1, 0] = np.nan
+        bad[7, 8, 0, :] *= -1.0
+        bad[9, 10, 3, 20:30] = 3.0 * bad[9, 10, 0, 20:30]
+        hostile = os.path.join(tmp, "hostile.fits")
+        sim.write(hostile, wl, bad)
+        r = run([z, "calibrate", "crosstalk", hostile, "--json"])
+        if r.returncode != 0:
+            failures.append("hostile pixels: exit %d %s" % (r.returncode, r.stderr))
+        else:
+            j = json.loads(r.stdout)
+            print("hostile pixels: rejected %s, warnings %s" % (j.get("rejected_pixels"), j.get("warnings")))
+            if j.get("rejected_pixels") != 4:
+                failures.append("hostile pixels: rejected_pixels %r, expected 4" % j.get("rejected_pixels"))
+            text = " ".join(j.get("warnings", []))
+            for name in ("ABSURD_INPUT 1", "NONFINITE_INPUT 1", "NONPOSITIVE_I 1", "POL_EXCEEDS_I 1"):
+                if name not in text:
+                    failures.append("hostile pixels: warning lacks %r: %s" % (name, text))
+            for key, true in sim.CROSSTALK.items():
+                pull = (j[key] - true) / j[key + "_err"]
+                print("hostile %s: %.5f +- %.5f (injected %.5f, pull %+.2f)" % (key, j[key], j[key + "_err"], true, pull))
+                if abs(pull) > MAX_PULL:
+                    failures.append("hostile pixels: %s pull %.2f" % (key, pull))
+        nothing = os.path.join(tmp, "nothing.fits")
+        sim.write(nothing, wl, np.full_like(bad, np.nan))
+        r = run([z, "calibrate", "crosstalk", nothing])
+        if r.returncode != 1 or "no usable pixel" not in r.stderr:
+            failures.append("all-NaN cube: exit %d %s" % (r.returncode, r.stderr))
         # Errors: existing output -> 3, --correct without -o -> 2, a cube without V -> 1.
         r = run([z, "calibrate", "crosstalk", obs, "--correct", "-o", out])
         if r.returncode != 3:

@@ -16,6 +16,9 @@
 //    antisymmetric, so they average out of the regression (common practice; it assumes no strong
 //    Doppler gradients). With fewer than min_strong_v_samples strong-V samples b is not estimated (NaN,
 //    left uncorrected, with a warning).
+// Every pixel passes the maps' data-sanity check first (maps/data_sanity.hpp: non-finite or absurd samples,
+// continuum I <= 0, |Q|,|U|,|V| beyond I); a failing pixel is left out of all three passes, counted by reason
+// and named in a warning; a cube with no usable pixel is an error.
 // Correction (the inverse of X): I' = I, V' = V - a_V I, Q' = Q - a_Q I - b_Q V', U' = U - a_U I - b_U V'.
 #pragma once
 
@@ -48,6 +51,8 @@ struct CrosstalkResult {
   long long strong_v_samples = 0;   ///< samples used for b
   double v_noise = 0.0;             ///< sigma_V (data units)
   bool v_estimated = false;         ///< b coefficients available
+  long long rejected_pixels = 0;    ///< pixels left out of every sum by the data-sanity check
+  long long rejected_by_bit[32] = {};  ///< of those, how many failed each QUALITY test (io/quality_flags.hpp)
   std::vector<std::string> warnings;
 
   /// The correction as a 4 x 4 matrix acting on (I, Q, U, V) (NaN b treated as 0).
