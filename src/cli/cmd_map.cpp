@@ -16,6 +16,7 @@
 #include "cli/interrupt.hpp"
 #include "cli/line_selection.hpp"
 #include "cli/map_command.hpp"
+#include "cli/map_file_sink.hpp"
 #include "cli/parallel.hpp"
 #include "zeeline/atomic/paschen_back.hpp"
 #include "cli/output_paths.hpp"
@@ -196,23 +197,6 @@ void RunMap(const MapArgs& a) {
                  "B_LOS)\n",
                  a.cube.c_str());
 
-  FieldMaps maps;
-  std::string ranks_summary;
-  const RunStatus status = ComputeMapsOnAllRanks(reader, o, run, a.rows_per_task, maps, ranks_summary);
-  if (status == RunStatus::kCancelled) {
-    if (IsOutputRank())
-      std::fprintf(stderr, "\nzeeline: interrupted; no map file was written%s\n",
-                   a.resume ? (" (checkpoint " + run.checkpoint_path + " kept for --resume)").c_str() : "");
-    StopParallel();
-    std::exit(130);
-  }
-  if (!IsOutputRank()) return;  // MPI: rank 0 gathered the maps and writes them
-
-  const auto t_write = std::chrono::steady_clock::now();
-  long flagged = 0;
-  for (auto q : maps.quality) flagged += q != 0;
-  const std::vector<ImageHdu> hdus = MapHdus(std::move(maps), o);  // the map slots move into the HDUs
-
   FitsWriteOptions w;
   w.overwrite = a.overwrite;
   w.provenance.command_line = a.command_line;
@@ -226,17 +210,37 @@ void RunMap(const MapArgs& a) {
                                    std::to_string(l.relative_strength));
   if (o.disambiguate)
     w.provenance.history.push_back("B_AZIM disambiguated (acute angle to the potential field), range [0, 360) deg");
-  try {
-    WriteFieldMaps(a.output, hdus, info.spatial_wcs_header, w);
-  } catch (const FitsError& e) {
-    throw OutputError(e.what());  // checked up front; this is a failure while writing (exit 3)
+  // The maps go into the file as their rows are finished (rank 0 writes under MPI); the file appears under
+  // its name only when complete. With --resume it is built as OUTPUT.partial and kept for the next run.
+  std::unique_ptr<MapFileSink> sink;
+  if (IsOutputRank()) {
+    sink = std::make_unique<MapFileSink>(a.output, MapHduLayout(info.nx, info.ny, o), info.spatial_wcs_header, w,
+                                         a.resume ? a.output + ".partial" : std::string());
+    run.sink = sink.get();
   }
+
+  FieldMaps maps;
+  std::string ranks_summary;
+  const RunStatus status = ComputeMapsOnAllRanks(reader, o, run, a.rows_per_task, maps, ranks_summary);
+  if (status == RunStatus::kCancelled) {
+    if (sink) sink->Abandon();  // std::exit below runs no destructors
+    if (IsOutputRank())
+      std::fprintf(stderr, "\nzeeline: interrupted; no map file was written%s\n",
+                   a.resume ? (" (checkpoint " + run.checkpoint_path + " kept for --resume)").c_str() : "");
+    StopParallel();
+    std::exit(130);
+  }
+  if (!IsOutputRank()) return;  // MPI: rank 0 wrote the maps
+
+  const auto t_write = std::chrono::steady_clock::now();
+  const long flagged = static_cast<long>(maps.flagged_pixels);
+  const std::size_t n_images = sink->Commit(maps);
   if (a.resume) fs::remove(run.checkpoint_path, ec);
   const auto seconds = [](std::chrono::steady_clock::time_point t0, std::chrono::steady_clock::time_point t1) {
     return std::chrono::duration<double>(t1 - t0).count();
   };
   const auto t_written = std::chrono::steady_clock::now();
-  const double total_s = seconds(t_start, t_written), write_s = seconds(t_write, t_written);
+  const double total_s = seconds(t_start, t_written), end_s = seconds(t_write, t_written);
   std::vector<std::string> pngs;
   if (!a.png_dir.empty()) {
     QuicklookOptions q;
@@ -245,7 +249,7 @@ void RunMap(const MapArgs& a) {
   }
 
   if (!a.quiet) {
-    std::printf("maps: %s (%ld x %ld pixels, %zu HDUs)\n", a.output.c_str(), maps.nx, maps.ny, hdus.size() + 1);
+    std::printf("maps: %s (%ld x %ld pixels, %zu HDUs)\n", a.output.c_str(), maps.nx, maps.ny, n_images + 1);
     std::printf("line: %s\n", line.description.c_str());
     if (!split_regime.empty()) std::printf("split: %s\n", split_regime.c_str());
     std::printf("method per pixel: wfa %lld, cog %lld, split %lld, me %lld; pixels with QUALITY flags: %ld\n",
@@ -259,7 +263,9 @@ void RunMap(const MapArgs& a) {
     // Where the time went, up to the map file being written (docs/methods.md, "What the speed depends on").
     // Reading runs on its own thread behind the estimators; only the part they waited for counts as
     // reading time here, the hidden rest is shown in brackets.
+    // Writing: the rows handed to the file during the run and the end (disambiguated rows, close, rename).
     const double pct = total_s > 0.0 ? 100.0 / total_s : 0.0;
+    const double write_s = maps.sink_seconds + end_s;
     const double other_s = std::max(total_s - maps.read_wait_seconds - maps.compute_seconds - write_s, 0.0);
     std::printf("speed: %lld pixels in %.3f s = %.0f pixels/s; reading %.0f %%, computing %.0f %%, writing %.0f %%, "
                 "set-up %.0f %% (reading %.3f s in all, %.3f s of it behind the computation)\n",
@@ -366,43 +372,24 @@ MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const Cu
   return setup;
 }
 
-namespace {
-// movable_slots (= &maps.slots, or null): the float maps go in as float32 payloads moved out of it (no copy;
-// `map` of a large cube would otherwise hold every map twice, in float and in double).
-std::vector<ImageHdu> AssembleMapHdus(const FieldMaps& maps, const FieldMapOptions& o,
-                                      std::vector<std::vector<float>>* movable_slots) {
-  // Assemble the HDUs: only the maps that carry information for this cube and method.
+std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o) {
   std::vector<ImageHdu> hdus;
-  auto add = [&](int slot) {
-    const auto& v = maps.slots[static_cast<std::size_t>(slot)];
-    bool any = false;
-    for (float x : v) any |= std::isfinite(x);
-    if (!any) return;
-    if (movable_slots) {
-      hdus.push_back(MakeMap(MapSlotName(slot), maps.nx, maps.ny, {}));
-      hdus.back().values_f32 = std::move((*movable_slots)[static_cast<std::size_t>(slot)]);
-    } else {
-      hdus.push_back(MakeMap(MapSlotName(slot), maps.nx, maps.ny, std::vector<double>(v.begin(), v.end())));
-    }
-  };
-  for (int s = 0; s < kSlotCount; ++s) add(s);
-  ImageHdu method = MakeMap(map_names::kMethod, maps.nx, maps.ny,
-                            std::vector<double>(maps.method.begin(), maps.method.end()));
-  method.type = FitsPixelType::kInt16;
-  method.keywords.push_back({"METH1", std::string("wfa"), "weak-field approximation"});
-  method.keywords.push_back({"METH2", std::string("cog"), "centre of gravity"});
-  method.keywords.push_back({"METH3", std::string("split"), "resolved splitting"});
-  method.keywords.push_back({"METH4", std::string("me"), "Milne-Eddington inversion"});
-  hdus.push_back(method);
+  for (int s = 0; s < kSlotCount; ++s) hdus.push_back(MakeMap(MapSlotName(s), nx, ny, {}));
   for (ImageHdu& h : hdus)
     if (h.extname == map_names::kAzimuth) {  // for readers and the quicklooks
       h.keywords.push_back({"AZRANGE", static_cast<long long>(o.disambiguate ? 360 : 180),
                             o.disambiguate ? "B_AZIM in [0, 360) deg: disambiguated" : "B_AZIM in [0, 180) deg: 180 deg ambiguous"});
       h.keywords.push_back({"DETSIG", o.detection_sigma, "B_TRANS detection threshold in sigma"});
     }
-  if (!maps.disambiguation.empty()) {
-    ImageHdu d = MakeMap("AZIM_PICK", maps.nx, maps.ny,
-                         std::vector<double>(maps.disambiguation.begin(), maps.disambiguation.end()));
+  ImageHdu method = MakeMap(map_names::kMethod, nx, ny, {});
+  method.type = FitsPixelType::kInt16;
+  method.keywords.push_back({"METH1", std::string("wfa"), "weak-field approximation"});
+  method.keywords.push_back({"METH2", std::string("cog"), "centre of gravity"});
+  method.keywords.push_back({"METH3", std::string("split"), "resolved splitting"});
+  method.keywords.push_back({"METH4", std::string("me"), "Milne-Eddington inversion"});
+  hdus.push_back(method);
+  if (o.disambiguate) {
+    ImageHdu d = MakeMap("AZIM_PICK", nx, ny, {});
     d.type = FitsPixelType::kInt16;
     d.bunit.clear();
     d.keywords.push_back({"AZPICK0", std::string("none"), "no azimuth"});
@@ -411,8 +398,7 @@ std::vector<ImageHdu> AssembleMapHdus(const FieldMaps& maps, const FieldMapOptio
     d.keywords.push_back({"AZPICK3", std::string("smoothed"), "flipped by the smoothness pass"});
     hdus.push_back(d);
   }
-  ImageHdu quality = MakeMap(map_names::kQuality, maps.nx, maps.ny,
-                             std::vector<double>(maps.quality.begin(), maps.quality.end()));
+  ImageHdu quality = MakeMap(map_names::kQuality, nx, ny, {});
   quality.type = FitsPixelType::kInt32;
   // QBITn names bit n (value 2^n) with the library's list (io/quality_flags.hpp, docs/fits.md).
   for (int b = 0; b < 31; ++b) {
@@ -422,17 +408,31 @@ std::vector<ImageHdu> AssembleMapHdus(const FieldMaps& maps, const FieldMapOptio
                                                                          " (value " + std::to_string(1u << b) + ")"});
   }
   hdus.push_back(quality);
-
   return hdus;
 }
-}  // namespace
 
 std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {
-  return AssembleMapHdus(maps, o, nullptr);
-}
-
-std::vector<ImageHdu> MapHdus(FieldMaps&& maps, const FieldMapOptions& o) {
-  return AssembleMapHdus(maps, o, &maps.slots);
+  // Only the maps that carry information for this cube and method.
+  std::vector<ImageHdu> hdus;
+  for (ImageHdu& h : MapHduLayout(maps.nx, maps.ny, o)) {
+    int slot = -1;
+    for (int s = 0; s < kSlotCount; ++s)
+      if (h.extname == MapSlotName(s)) slot = s;
+    if (slot >= 0) {
+      const auto& v = maps.slots[static_cast<std::size_t>(slot)];
+      if (std::none_of(v.begin(), v.end(), [](float x) { return std::isfinite(x); })) continue;
+      h.values.assign(v.begin(), v.end());
+    } else if (h.extname == map_names::kMethod) {
+      h.values.assign(maps.method.begin(), maps.method.end());
+    } else if (h.extname == map_names::kQuality) {
+      h.values.assign(maps.quality.begin(), maps.quality.end());
+    } else {  // AZIM_PICK
+      if (maps.disambiguation.empty()) continue;
+      h.values.assign(maps.disambiguation.begin(), maps.disambiguation.end());
+    }
+    hdus.push_back(std::move(h));
+  }
+  return hdus;
 }
 
 void AddMapCommand(CLI::App& app, int argc, char** argv) {

@@ -50,11 +50,12 @@ struct MapSetup {
 /// The FieldMapOptions for this line and cube (rest wavelength in the cube's frame). Throws OptionError.
 MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const CubeInfo& info);
 
-/// The image HDUs of the map file in order: each map slot that has a finite value, METHOD, AZIM_PICK (when
-/// disambiguated) and QUALITY, with their keywords (docs/fits.md).
+/// The image HDUs of the map file in order, without values: every map slot (MapSlotName), METHOD (int16),
+/// AZIM_PICK (int16, when disambiguated) and QUALITY (int32), with their keywords (docs/fits.md). The file
+/// keeps the map slots that have a finite value (FieldMaps::slots_with_values) and the others.
+std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o);
+/// The same HDUs with the values of whole maps in memory (the Python module), map slots without a finite
+/// value left out.
 std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o);
-/// The same HDUs with the float maps moved in as float32 payloads (ImageHdu::values_f32, no copy; the
-/// file is the same); `maps` keeps everything but its map slots.
-std::vector<ImageHdu> MapHdus(FieldMaps&& maps, const FieldMapOptions& o);
 
 }  // namespace zeeline::cli

@@ -23,17 +23,21 @@ std::string ExistsMessage(const std::string& p) {
   return "'" + p + "' already exists; refusing to overwrite it (use the overwrite option / --overwrite)";
 }
 
+// The destination may be replaced only with `overwrite`, and never when it is a directory.
+void CheckDestination(const std::string& final_path, bool overwrite) {
+  if (!Exists(final_path)) return;
+  if (!overwrite) throw FitsError(ExistsMessage(final_path));
+  struct stat sb {};
+  if (::stat(final_path.c_str(), &sb) == 0 && S_ISDIR(sb.st_mode))
+    throw FitsError("'" + final_path + "' is a directory, not an output file");
+}
+
 }  // namespace
 
 TempOutputFile::TempOutputFile(const std::string& final_path, bool overwrite)
     : final_(final_path), overwrite_(overwrite) {
   if (final_.empty()) throw FitsError("output file name is empty");
-  if (Exists(final_)) {
-    if (!overwrite_) throw FitsError(ExistsMessage(final_));
-    struct stat sb {};
-    if (::stat(final_.c_str(), &sb) == 0 && S_ISDIR(sb.st_mode))
-      throw FitsError("'" + final_ + "' is a directory, not an output file");
-  }
+  CheckDestination(final_, overwrite_);
   const auto slash = final_.find_last_of('/');
   const std::string dir = slash == std::string::npos ? "." : (slash == 0 ? "/" : final_.substr(0, slash));
   const std::string base = slash == std::string::npos ? final_ : final_.substr(slash + 1);
@@ -49,8 +53,14 @@ TempOutputFile::TempOutputFile(const std::string& final_path, bool overwrite)
   ::unlink(temp_.c_str());  // the writers create the file themselves; the unique name stays ours
 }
 
+TempOutputFile::TempOutputFile(const std::string& final_path, bool overwrite, const std::string& work_path)
+    : final_(final_path), temp_(work_path), overwrite_(overwrite), keep_(true) {
+  if (final_.empty() || temp_.empty()) throw FitsError("output file name is empty");
+  CheckDestination(final_, overwrite_);
+}
+
 TempOutputFile::~TempOutputFile() {
-  if (!committed_) ::unlink(temp_.c_str());
+  if (!committed_ && !keep_) ::unlink(temp_.c_str());
 }
 
 void TempOutputFile::Commit() {

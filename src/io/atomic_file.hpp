@@ -11,6 +11,9 @@ class TempOutputFile {
  public:
   /// Throws FitsError when the destination exists and !overwrite, or its directory is not writable.
   TempOutputFile(const std::string& final_path, bool overwrite);
+  /// The same with a chosen working file `work_path` (kept, not removed, when not committed: the partial map
+  /// file of --resume). It may exist; the writer decides whether to reuse or replace it.
+  TempOutputFile(const std::string& final_path, bool overwrite, const std::string& work_path);
   ~TempOutputFile();
   TempOutputFile(const TempOutputFile&) = delete;
   TempOutputFile& operator=(const TempOutputFile&) = delete;
@@ -24,6 +27,7 @@ class TempOutputFile {
   std::string final_, temp_;
   bool overwrite_ = false;
   bool committed_ = false;
+  bool keep_ = false;  // a chosen working file stays when not committed
 };
 
 }  // namespace zeeline::io_detail

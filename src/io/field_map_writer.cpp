@@ -5,6 +5,7 @@
 
 #include <algorithm>
 #include <cctype>
+#include <cstdio>
 #include <cmath>
 #include <limits>
 #include <set>
@@ -140,24 +141,8 @@ struct Writer {
   }
 
   void Image(const ImageHdu& h, const std::string& spatial_wcs) {
-    hdu = "HDU '" + h.extname + "'";
-    longstrn_written = false;
-    int bitpix = FLOAT_IMG;
-    switch (h.type) {
-      case FitsPixelType::kFloat32: bitpix = FLOAT_IMG; break;
-      case FitsPixelType::kFloat64: bitpix = DOUBLE_IMG; break;
-      case FitsPixelType::kInt16: bitpix = SHORT_IMG; break;
-      case FitsPixelType::kInt32: bitpix = LONG_IMG; break;
-    }
-    std::vector<long> naxes = h.naxes;
+    ImageHeader(h, spatial_wcs);
     int status = 0;
-    fits_create_img(f, bitpix, static_cast<int>(naxes.size()), naxes.data(), &status);
-    Check(status, "cannot create the image HDU");
-    Key({"EXTNAME", h.extname, "map name"});
-    if (!h.bunit.empty()) Key({"BUNIT", h.bunit, "physical unit of the values"});
-    const std::string& wcs = !h.wcs_header.empty() ? h.wcs_header : (h.spatial_wcs ? spatial_wcs : std::string());
-    if (!wcs.empty()) WcsCards(wcs, static_cast<int>(naxes.size()) != 2 ? static_cast<int>(naxes.size()) : 0);
-    for (const auto& kv : h.keywords) Key(kv);
     const auto n = static_cast<LONGLONG>(h.values.size());
     if (h.values.empty() && !h.values_f32.empty()) {  // kFloat32 only (ValidateImages)
       fits_write_img(f, TFLOAT, 1, static_cast<LONGLONG>(h.values_f32.size()), const_cast<float*>(h.values_f32.data()),
@@ -179,9 +164,32 @@ struct Writer {
     }
     Check(status, "cannot write the image data");
   }
+
+  // The image HDU and its header; the data follow (Image) or are written later (FieldMapFileStream).
+  void ImageHeader(const ImageHdu& h, const std::string& spatial_wcs) {
+    hdu = "HDU '" + h.extname + "'";
+    longstrn_written = false;
+    int bitpix = FLOAT_IMG;
+    switch (h.type) {
+      case FitsPixelType::kFloat32: bitpix = FLOAT_IMG; break;
+      case FitsPixelType::kFloat64: bitpix = DOUBLE_IMG; break;
+      case FitsPixelType::kInt16: bitpix = SHORT_IMG; break;
+      case FitsPixelType::kInt32: bitpix = LONG_IMG; break;
+    }
+    std::vector<long> naxes = h.naxes;
+    int status = 0;
+    fits_create_img(f, bitpix, static_cast<int>(naxes.size()), naxes.data(), &status);
+    Check(status, "cannot create the image HDU");
+    Key({"EXTNAME", h.extname, "map name"});
+    if (!h.bunit.empty()) Key({"BUNIT", h.bunit, "physical unit of the values"});
+    const std::string& wcs = !h.wcs_header.empty() ? h.wcs_header : (h.spatial_wcs ? spatial_wcs : std::string());
+    if (!wcs.empty()) WcsCards(wcs, static_cast<int>(naxes.size()) != 2 ? static_cast<int>(naxes.size()) : 0);
+    for (const auto& kv : h.keywords) Key(kv);
+  }
 };
 
-void ValidateImages(const std::string& path, const std::vector<ImageHdu>& images) {
+// `layout`: headers only (FieldMapFileStream), the values must be empty.
+void ValidateImages(const std::string& path, const std::vector<ImageHdu>& images, bool layout = false) {
   std::set<std::string> names;
   for (const auto& h : images) {
     const std::string where = "'" + path + "' HDU '" + h.extname + "': ";
@@ -199,7 +207,10 @@ void ValidateImages(const std::string& path, const std::vector<ImageHdu>& images
     if (!h.values_f32.empty() && (!h.values.empty() || h.type != FitsPixelType::kFloat32))
       throw FitsError(where + "a float32 payload needs a float32 image and no double values");
     const std::size_t count = h.values.empty() ? h.values_f32.size() : h.values.size();
-    if (n != static_cast<long double>(count))
+    if (layout) {
+      if (count != 0 || h.naxes.size() != 2 || h.type == FitsPixelType::kFloat64)
+        throw FitsError(where + "a streamed map must be a 2-D float32, int16 or int32 image without values");
+    } else if (n != static_cast<long double>(count))
       throw FitsError(where + "has " + std::to_string(count) + " values but the axes need " +
                       Num(static_cast<double>(n)));
     if (AsciiOnly(h.bunit) != h.bunit) throw FitsError(where + "BUNIT must be ASCII");
@@ -244,6 +255,188 @@ void WriteFieldMaps(const std::string& path, const std::vector<ImageHdu>& maps, 
   closer.release();
   CloseFile(w);
   out.Commit();
+}
+
+struct FieldMapFileStream::State {
+  std::string path, spatial_wcs;
+  std::vector<ImageHdu> layout;
+  FitsWriteOptions options;
+  bool reopened = false;
+  io_detail::TempOutputFile out;
+  Writer w;
+  io_detail::FitsCloser closer;
+  State(const std::string& p, bool overwrite, const std::string& work_path)
+      : out(work_path.empty() ? io_detail::TempOutputFile(p, overwrite)
+                              : io_detail::TempOutputFile(p, overwrite, work_path)) {}
+
+  // Moves to image `hdu` of the layout; `what` names the operation in errors.
+  void MoveTo(std::size_t hdu, long first_row, long rows, const char* what) {
+    if (hdu >= layout.size()) throw OptionError("FieldMapFileStream: no image " + std::to_string(hdu));
+    const ImageHdu& h = layout[hdu];
+    w.hdu = "HDU '" + h.extname + "'";
+    if (first_row < 0 || rows < 0 || first_row + rows > h.naxes[1])
+      w.Fail(std::string(what) + ": rows " + std::to_string(first_row) + ".." + std::to_string(first_row + rows - 1) +
+             " lie outside the image (" + std::to_string(h.naxes[1]) + " rows)");
+    int status = 0;
+    fits_movabs_hdu(w.f, static_cast<int>(hdu) + 2, nullptr, &status);
+    w.Check(status, "cannot move to the HDU");
+  }
+
+  template <class T>
+  void Write(std::size_t hdu, long first_row, long rows, const T* values, int datatype) {
+    MoveTo(hdu, first_row, rows, "writing");
+    const LONGLONG nx = layout[hdu].naxes[0];
+    int status = 0;
+    if (rows > 0)
+      fits_write_img(w.f, datatype, first_row * nx + 1, rows * nx, const_cast<T*>(values), &status);
+    w.Check(status, "cannot write rows " + std::to_string(first_row + 1) + ".." + std::to_string(first_row + rows));
+  }
+
+  // A reopened file must hold the layout's images, in order, with the same names, types and sizes.
+  void CheckReopened() {
+    int nhdu = 0, status = 0;
+    fits_get_num_hdus(w.f, &nhdu, &status);
+    if (status || nhdu != static_cast<int>(layout.size()) + 1)
+      w.Fail("holds " + std::to_string(nhdu) + " HDUs, this run writes " + std::to_string(layout.size() + 1) +
+             "; remove it and the checkpoint to start again");
+    for (std::size_t i = 0; i < layout.size(); ++i) {
+      const ImageHdu& h = layout[i];
+      char name[FLEN_VALUE] = {0};
+      int bitpix = 0, naxis = 0;
+      long nax[2] = {0, 0};
+      fits_movabs_hdu(w.f, static_cast<int>(i) + 2, nullptr, &status);
+      fits_read_key(w.f, TSTRING, "EXTNAME", name, nullptr, &status);
+      fits_get_img_param(w.f, 2, &bitpix, &naxis, nax, &status);
+      const int want = h.type == FitsPixelType::kInt16 ? SHORT_IMG : h.type == FitsPixelType::kInt32 ? LONG_IMG : FLOAT_IMG;
+      if (status || io_detail::Trim(name) != h.extname || naxis != 2 || nax[0] != h.naxes[0] || nax[1] != h.naxes[1] ||
+          bitpix != want)
+        w.Fail("HDU " + std::to_string(i + 1) + " is not the image " + h.extname + " this run writes" +
+               (status ? " (" + CfitsioMessage(status) + ")" : std::string()) +
+               "; remove it and the checkpoint to start again");
+    }
+  }
+
+  // The primary header of a reopened file gets this run's provenance (CREATOR and everything after it).
+  void ReplaceProvenance() {
+    int status = 0, nkeys = 0;
+    w.hdu = "primary HDU";
+    fits_movabs_hdu(w.f, 1, nullptr, &status);
+    fits_get_hdrspace(w.f, &nkeys, nullptr, &status);
+    w.Check(status, "cannot read the header");
+    int first = 0;
+    for (int k = 1; k <= nkeys && !first; ++k) {
+      char card[FLEN_CARD] = {0};
+      fits_read_record(w.f, k, card, &status);
+      if (io_detail::CardKeyword(card) == "CREATOR") first = k;
+    }
+    w.Check(status, "cannot read the header");
+    for (int k = nkeys; first && k >= first; --k) fits_delete_record(w.f, k, &status);
+    w.Check(status, "cannot replace the provenance keywords");
+    w.longstrn_written = false;
+    w.Provenance(options.provenance);
+  }
+};
+
+FieldMapFileStream::FieldMapFileStream(const std::string& path, std::vector<ImageHdu> layout,
+                                       const std::string& spatial_wcs_header, const FitsWriteOptions& options,
+                                       const std::string& work_path, bool reopen) {
+  const std::string problem = options.Validate();
+  if (!problem.empty()) throw OptionError("FitsWriteOptions: " + problem);
+  if (layout.empty()) throw FitsError("'" + path + "': no maps to write");
+  ValidateImages(path, layout, true);
+  state_ = std::make_unique<State>(path, options.overwrite, work_path);
+  State& st = *state_;
+  st.path = path;
+  st.spatial_wcs = spatial_wcs_header;
+  st.layout = std::move(layout);
+  st.options = options;
+  st.w.path = path;
+  const std::string& file = st.out.temp_path();
+  int status = 0;
+  if (reopen) {
+    if (fits_open_diskfile(&st.w.f, file.c_str(), READWRITE, &status)) {
+      st.w.f = nullptr;
+      throw FitsError("'" + path + "': cannot reopen the partial map file '" + file + "': " + CfitsioMessage(status) +
+                      "; remove the checkpoint to start again");
+    }
+    st.closer.f = st.w.f;
+    st.w.path = file;
+    st.CheckReopened();
+    st.w.path = path;
+    st.reopened = true;
+    return;
+  }
+  if (!work_path.empty()) ::remove(file.c_str());  // a stale partial file of an earlier run
+  CreateFile(&st.w.f, file, path);
+  st.closer.f = st.w.f;  // closes on exceptions; a temporary file is then removed
+  fits_create_img(st.w.f, BYTE_IMG, 0, nullptr, &status);
+  st.w.Check(status, "cannot create the primary HDU");
+  st.w.Provenance(options.provenance);
+  for (const auto& h : st.layout) st.w.ImageHeader(h, spatial_wcs_header);
+  // Every data area now exists in cfitsio's view; the last image's is reserved by writing its last pixel
+  // (the file then has its full size, so a partial file reopened later reads as a whole).
+  const ImageHdu& last = st.layout.back();
+  st.w.hdu = "HDU '" + last.extname + "'";
+  const LONGLONG n = static_cast<LONGLONG>(last.naxes[0]) * last.naxes[1];
+  std::int32_t zero = 0;
+  fits_write_img(st.w.f, last.type == FitsPixelType::kInt16 ? TSHORT : last.type == FitsPixelType::kInt32 ? TINT : TFLOAT,
+                 n, 1, &zero, &status);
+  st.w.Check(status, "cannot reserve the image data");
+}
+
+FieldMapFileStream::~FieldMapFileStream() = default;
+
+const std::vector<ImageHdu>& FieldMapFileStream::layout() const { return state_->layout; }
+
+void FieldMapFileStream::WriteRows(std::size_t hdu, long first_row, long rows, const float* values) {
+  if (state_->layout.at(hdu).type != FitsPixelType::kFloat32) throw OptionError("FieldMapFileStream: float rows for an integer image");
+  state_->Write(hdu, first_row, rows, values, TFLOAT);
+}
+
+void FieldMapFileStream::WriteRows(std::size_t hdu, long first_row, long rows, const std::int16_t* values) {
+  if (state_->layout.at(hdu).type != FitsPixelType::kInt16) throw OptionError("FieldMapFileStream: int16 rows for another image type");
+  state_->Write(hdu, first_row, rows, values, TSHORT);
+}
+
+void FieldMapFileStream::WriteRows(std::size_t hdu, long first_row, long rows, const std::int32_t* values) {
+  if (state_->layout.at(hdu).type != FitsPixelType::kInt32) throw OptionError("FieldMapFileStream: int32 rows for another image type");
+  state_->Write(hdu, first_row, rows, values, TINT);
+}
+
+void FieldMapFileStream::ReadRows(std::size_t hdu, long first_row, long rows, float* values) {
+  State& st = *state_;
+  st.MoveTo(hdu, first_row, rows, "reading");
+  const LONGLONG nx = st.layout[hdu].naxes[0];
+  float nulval = std::numeric_limits<float>::quiet_NaN();
+  int anynul = 0, status = 0;
+  if (rows > 0) fits_read_img(st.w.f, TFLOAT, first_row * nx + 1, rows * nx, &nulval, values, &anynul, &status);
+  st.w.Check(status, "cannot read rows " + std::to_string(first_row + 1) + ".." + std::to_string(first_row + rows));
+}
+
+void FieldMapFileStream::Flush() {
+  State& st = *state_;
+  int status = 0;
+  fits_flush_buffer(st.w.f, 0, &status);
+  st.w.Check(status, "cannot write the file");
+}
+
+void FieldMapFileStream::Commit(const std::vector<bool>& keep) {
+  State& st = *state_;
+  if (keep.size() != st.layout.size()) throw OptionError("FieldMapFileStream::Commit: one keep flag per image");
+  if (std::none_of(keep.begin(), keep.end(), [](bool k) { return k; })) throw FitsError("'" + st.path + "': no maps to write");
+  if (st.reopened) st.ReplaceProvenance();
+  // Last first: a deletion moves the HDUs after it, the ones before keep their numbers.
+  for (std::size_t i = st.layout.size(); i-- > 0;) {
+    if (keep[i]) continue;
+    st.w.hdu = "HDU '" + st.layout[i].extname + "'";
+    int status = 0;
+    fits_movabs_hdu(st.w.f, static_cast<int>(i) + 2, nullptr, &status);
+    fits_delete_hdu(st.w.f, nullptr, &status);
+    st.w.Check(status, "cannot remove the empty map");
+  }
+  st.closer.release();
+  CloseFile(st.w);
+  st.out.Commit();
 }
 
 void WriteStokesCube(const std::string& path, const StokesCubeData& data, const std::vector<double>& wavelength_nm,

@@ -99,7 +99,7 @@ std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::si
 
 void RequireUsablePixel(const std::vector<std::int32_t>& quality, const std::string& path) {
   if (quality.empty()) return;
-  long counts[4] = {0, 0, 0, 0};
+  std::int64_t counts[4] = {0, 0, 0, 0};
   const std::uint32_t bits[4] = {kQualityNonFiniteInput, kQualityAbsurdInput, kQualityNonPositiveI,
                                  kQualityPolExceedsI};
   for (std::int32_t q : quality) {
@@ -107,10 +107,16 @@ void RequireUsablePixel(const std::vector<std::int32_t>& quality, const std::str
     if (!(u & kQualityInputRejected)) return;  // at least one pixel was inverted
     for (int b = 0; b < 4; ++b) counts[b] += (u & bits[b]) != 0;
   }
+  RequireUsablePixel(0, static_cast<std::int64_t>(quality.size()), counts, path);
+}
+
+void RequireUsablePixel(std::int64_t usable, std::int64_t pixels, const std::int64_t (&rejected)[4],
+                        const std::string& path) {
+  if (usable > 0 || pixels <= 0) return;
   std::ostringstream m;
-  m << path << ": no usable pixel: all " << quality.size() << " pixels fail the data-sanity check ("
-    << counts[0] << " with NaN/Inf samples, " << counts[1] << " with absurd values, " << counts[2]
-    << " with continuum Stokes I <= 0, " << counts[3]
+  m << path << ": no usable pixel: all " << pixels << " pixels fail the data-sanity check (" << rejected[0]
+    << " with NaN/Inf samples, " << rejected[1] << " with absurd values, " << rejected[2]
+    << " with continuum Stokes I <= 0, " << rejected[3]
     << " with |Q|, |U| or |V| > I); check the HDU, BSCALE/BZERO, the sign of I and the Stokes order (docs/errors.md)";
   throw FitsError(m.str());
 }

@@ -351,6 +351,7 @@ class PixelProcessor {
 
 // ---- checkpoints: a small binary file rewritten (temp + rename) after every tile.
 constexpr char kCheckpointMagic[8] = {'Z', 'L', 'C', 'K', 'P', 'T', '0', '1'};
+constexpr char kSinkCheckpointMagic[8] = {'Z', 'L', 'C', 'K', 'P', 'T', 'S', '1'};
 
 void SaveCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
   const std::string tmp = path + ".tmp";
@@ -378,6 +379,9 @@ bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint,
   if (!in) return false;
   char magic[8];
   in.read(magic, 8);
+  if (in && std::memcmp(magic, kSinkCheckpointMagic, 8) == 0)
+    throw FitsError(path + ": this checkpoint belongs to a map file written as it goes (zeeline map), not to "
+                           "whole maps in memory; remove it or run without --resume");
   if (!in || std::memcmp(magic, kCheckpointMagic, 8) != 0)
     throw FitsError(path + ": not a zeeline checkpoint (bad magic); remove it or run without --resume");
   std::uint64_t flen = 0;
@@ -401,7 +405,123 @@ bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint,
   return true;
 }
 
+// The checkpoint of a run with a sink: the counts only; the sink keeps the rows (FieldMapSink::Sync).
+constexpr int kSinkCounts = 5 + 1 + 2 + 4;  // method_counts, me_iterations, flagged, usable, rejected
+
+void SinkCounts(const FieldMaps& m, std::int64_t (&c)[kSinkCounts]) {
+  for (int k = 0; k < 5; ++k) c[k] = m.method_counts[k];
+  c[5] = m.me_iterations;
+  c[6] = m.flagged_pixels;
+  c[7] = m.usable_pixels;
+  for (int k = 0; k < 4; ++k) c[8 + k] = m.rejected_pixels[k];
+}
+
+void SaveSinkCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+  const std::string tmp = path + ".tmp";
+  {
+    std::ofstream out(tmp, std::ios::binary | std::ios::trunc);
+    if (!out) throw FitsError(path + ": cannot write the checkpoint file");
+    out.write(kSinkCheckpointMagic, 8);
+    const std::uint64_t flen = fingerprint.size();
+    out.write(reinterpret_cast<const char*>(&flen), sizeof flen);
+    out.write(fingerprint.data(), static_cast<std::streamsize>(flen));
+    const std::int64_t header[5] = {m.nx, m.ny, m.rows_done, kSlotCount, m.slots_with_values};
+    out.write(reinterpret_cast<const char*>(header), sizeof header);
+    std::int64_t counts[kSinkCounts];
+    SinkCounts(m, counts);
+    out.write(reinterpret_cast<const char*>(counts), sizeof counts);
+    if (!out) throw FitsError(path + ": writing the checkpoint failed (disk full?)");
+  }
+  if (std::rename(tmp.c_str(), path.c_str()) != 0) throw FitsError(path + ": cannot rename the checkpoint into place");
+}
+
+bool LoadSinkCheckpointFile(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) return false;
+  char magic[8];
+  in.read(magic, 8);
+  if (in && std::memcmp(magic, kCheckpointMagic, 8) == 0)
+    throw FitsError(path + ": this checkpoint holds whole maps (a library run without a sink), not the rows of a "
+                           "map file; remove it or run without --resume");
+  if (!in || std::memcmp(magic, kSinkCheckpointMagic, 8) != 0)
+    throw FitsError(path + ": not a zeeline checkpoint (bad magic); remove it or run without --resume");
+  std::uint64_t flen = 0;
+  in.read(reinterpret_cast<char*>(&flen), sizeof flen);
+  if (!in || flen > (1u << 20)) throw FitsError(path + ": corrupt checkpoint header");
+  std::string fp(flen, '\0');
+  in.read(fp.data(), static_cast<std::streamsize>(flen));
+  if (fp != fingerprint)
+    throw FitsError(path + ": the checkpoint was made from another input or other options; remove it to start again");
+  std::int64_t header[5];
+  in.read(reinterpret_cast<char*>(header), sizeof header);
+  if (!in || header[0] != m.nx || header[1] != m.ny || header[3] != kSlotCount || header[2] < 0 || header[2] > m.ny)
+    throw FitsError(path + ": checkpoint dimensions do not match the cube");
+  std::int64_t c[kSinkCounts];
+  in.read(reinterpret_cast<char*>(c), sizeof c);
+  if (!in) throw FitsError(path + ": checkpoint is truncated");
+  m.rows_done = header[2];
+  m.slots_with_values = static_cast<std::uint32_t>(header[4]);
+  for (int k = 0; k < 5; ++k) m.method_counts[k] = c[k];
+  m.me_iterations = c[5];
+  m.flagged_pixels = c[6];
+  m.usable_pixels = c[7];
+  for (int k = 0; k < 4; ++k) m.rejected_pixels[k] = c[8 + k];
+  return true;
+}
+
 }  // namespace
+
+void TallyRows(const FieldMaps& m, long row_begin, long rows, FieldMaps& into) {
+  const std::size_t begin = static_cast<std::size_t>(row_begin * m.nx), end = begin + static_cast<std::size_t>(rows * m.nx);
+  const std::uint32_t bits[4] = {kQualityNonFiniteInput, kQualityAbsurdInput, kQualityNonPositiveI,
+                                 kQualityPolExceedsI};
+  std::int64_t flagged = 0, usable = 0, rejected[4] = {0, 0, 0, 0};
+  for (std::size_t i = begin; i < end; ++i) {
+    const auto q = static_cast<std::uint32_t>(m.quality[i]);
+    flagged += q != 0;
+    if (!(q & kQualityInputRejected)) {
+      ++usable;
+      continue;
+    }
+    for (int b = 0; b < 4; ++b) rejected[b] += (q & bits[b]) != 0;
+  }
+  std::uint32_t with_values = 0;
+  for (int k = 0; k < kSlotCount; ++k) {
+    if (into.slots_with_values & (1u << k)) continue;  // known already
+    const float* v = m.slots[static_cast<std::size_t>(k)].data();
+    for (std::size_t i = begin; i < end; ++i)
+      if (std::isfinite(v[i])) {
+        with_values |= 1u << k;
+        break;
+      }
+  }
+  into.flagged_pixels += flagged;
+  into.usable_pixels += usable;
+  for (int b = 0; b < 4; ++b) into.rejected_pixels[b] += rejected[b];
+  into.slots_with_values |= with_values;
+}
+
+void AddCounts(const FieldMaps& from, FieldMaps& into) {
+  for (int k = 0; k < 5; ++k) into.method_counts[k] += from.method_counts[k];
+  into.me_iterations += from.me_iterations;
+  into.flagged_pixels += from.flagged_pixels;
+  into.usable_pixels += from.usable_pixels;
+  for (int k = 0; k < 4; ++k) into.rejected_pixels[k] += from.rejected_pixels[k];
+  into.slots_with_values |= from.slots_with_values;
+}
+
+std::vector<int> WholeMapSlots(const FieldMapOptions& o) {
+  if (!o.disambiguate) return {};
+  return {kSlotBlos, kSlotBtrans, kSlotBtransErr, kSlotAzimuth};
+}
+
+void SaveFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& maps) {
+  SaveSinkCheckpointFile(path, fingerprint, maps);
+}
+
+bool LoadFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& maps) {
+  return LoadSinkCheckpointFile(path, fingerprint, maps);
+}
 
 const char* MapSlotName(int slot) {
   static const char* kNames[kSlotCount] = {"B_TOTAL",  "B_TOTAL_SIGMA",  "B_INCL", "B_INCL_SIGMA", "B_AZIM",
@@ -566,6 +686,17 @@ void FieldMapEngine::InitMaps(long rows, FieldMaps& maps) const {
   std::fill(std::begin(maps.method_counts), std::end(maps.method_counts), 0);
   maps.disambiguation.clear();
   maps.me_iterations = 0;
+  maps.flagged_pixels = maps.usable_pixels = 0;
+  std::fill(std::begin(maps.rejected_pixels), std::end(maps.rejected_pixels), 0);
+  maps.slots_with_values = 0;
+  maps.sink_seconds = 0.0;
+}
+
+void FieldMapEngine::InitSinkMaps(FieldMaps& maps) const {
+  InitMaps(0, maps);
+  maps.ny = info_.ny;
+  const std::size_t np = static_cast<std::size_t>(info_.nx * info_.ny);
+  for (int k : WholeMapSlots(o_)) maps.slots[static_cast<std::size_t>(k)].assign(np, kNaN);
 }
 
 namespace {
@@ -652,7 +783,8 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
 }
 
 void FieldMapEngine::Finish(FieldMaps& maps) const {
-  RequireUsablePixel(maps.quality, info_.path);
+  if (maps.quality.size() == static_cast<std::size_t>(maps.nx * maps.ny)) RequireUsablePixel(maps.quality, info_.path);
+  else RequireUsablePixel(maps.usable_pixels, maps.nx * maps.ny, maps.rejected_pixels, info_.path);
   if (o_.disambiguate)
     DisambiguateAzimuth(maps.nx, maps.ny, maps.slots[kSlotBlos], maps.slots[kSlotBtrans], maps.slots[kSlotBtransErr],
                         maps.slots[kSlotAzimuth], maps.disambiguation, o_.disambiguation);
@@ -661,13 +793,29 @@ void FieldMapEngine::Finish(FieldMaps& maps) const {
 RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const FieldMapRunOptions& run, FieldMaps& maps) {
   const CubeInfo& info = reader.info();
   FieldMapEngine engine(info, o);
-  engine.InitMaps(info.ny, maps);
-  if (run.resume && !run.checkpoint_path.empty()) LoadCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+  FieldMapSink* const sink = run.sink;
+  const bool checkpoints = !run.checkpoint_path.empty();
+  if (sink) {
+    engine.InitSinkMaps(maps);
+    if (run.resume && checkpoints) LoadSinkCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+    sink->Begin(maps.rows_done, maps);
+  } else {
+    engine.InitMaps(info.ny, maps);
+    if (run.resume && checkpoints && LoadCheckpointFile(run.checkpoint_path, run.fingerprint, maps))
+      TallyRows(maps, 0, maps.rows_done, maps);
+  }
+  auto save_checkpoint = [&] {
+    if (!checkpoints) return;
+    if (!sink) return SaveCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+    sink->Sync();  // the rows first, then the checkpoint that counts on them
+    SaveSinkCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+  };
 
   using Clock = std::chrono::steady_clock;
   auto seconds_since = [](Clock::time_point t0) { return std::chrono::duration<double>(Clock::now() - t0).count(); };
   const long rows_per_tile = reader.rows_per_tile();
   const int threads = ResolveThreadCount(o.threads);
+  const std::vector<int> whole_slots = WholeMapSlots(o);
   // Tiles in file order (RawCubeTile): each worker gathers its pixel's spectra itself, in its own cache,
   // instead of a separate reorder pass over the tile (docs/methods.md, "What the speed depends on").
   RawCubeTile tile, next_tile;
@@ -698,13 +846,14 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   } else if (maps.rows_done < info.ny) {
     start_read(maps.rows_done, next_tile);
   }
+  FieldMaps block;  // with a sink: the maps of the current tile's rows (the buffers are reused)
   for (long y0 = maps.rows_done; y0 < info.ny; y0 += rows_per_tile) {
     const auto t_wait = Clock::now();
     pending.get();  // rethrows a read error
     maps.read_wait_seconds += seconds_since(t_wait);
     std::swap(tile, next_tile);
     if (run.cancel && run.cancel->load()) {
-      if (!run.checkpoint_path.empty()) SaveCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+      save_checkpoint();
       return RunStatus::kCancelled;
     }
     const long rows = std::min(rows_per_tile, info.ny - y0);
@@ -717,10 +866,27 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
       }
     } join{pending};
     const auto t_compute = Clock::now();
-    engine.Compute(tile, maps);
-    maps.compute_seconds += seconds_since(t_compute);
+    if (sink) {
+      if (block.ny != rows || block.nx != info.nx) engine.InitMaps(rows, block);
+      std::fill(std::begin(block.method_counts), std::end(block.method_counts), 0);
+      block.me_iterations = 0;
+      engine.Compute(tile, block, y0);  // sets every pixel of the block
+      AddCounts(block, maps);
+      TallyRows(block, 0, rows, maps);
+      const std::size_t at = static_cast<std::size_t>(y0 * info.nx), np = static_cast<std::size_t>(rows * info.nx);
+      for (int k : whole_slots)
+        std::copy_n(block.slots[static_cast<std::size_t>(k)].begin(), np, maps.slots[static_cast<std::size_t>(k)].begin() + at);
+      maps.compute_seconds += seconds_since(t_compute);
+      const auto t_sink = Clock::now();
+      sink->Put(block, y0);
+      maps.sink_seconds += seconds_since(t_sink);
+    } else {
+      engine.Compute(tile, maps);
+      TallyRows(maps, y0, rows, maps);
+      maps.compute_seconds += seconds_since(t_compute);
+    }
     maps.rows_done = y0 + rows;
-    if (!run.checkpoint_path.empty()) SaveCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+    save_checkpoint();
     if (run.progress) run.progress(maps.rows_done, info.ny);
   }
   maps.read_seconds += read_seconds;

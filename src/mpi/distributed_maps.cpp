@@ -132,24 +132,25 @@ TaskPlan PlanTasks(long ny, long first_row, long rows_per_tile, int ranks, const
   return plan;
 }
 
-std::pair<long, long> UnpackResult(const std::vector<char>& buf, const TaskPlan& plan, FieldMaps& maps) {
+// A packed result as the maps of its task's rows (block); returns the task.
+long UnpackResult(const std::vector<char>& buf, const TaskPlan& plan, const FieldMapEngine& engine, FieldMaps& block) {
   std::int64_t header[kHeaderWords];
   const char* p = Take(buf.data(), header, kHeaderWords);
   const long task = static_cast<long>(header[0]);
   const std::size_t np = static_cast<std::size_t>(header[1]);
   if (task < 0 || task >= plan.tasks)
     throw DistributedRunError("internal error: a result message names task " + std::to_string(task));
-  const std::size_t at = static_cast<std::size_t>(plan.Begin(task) * maps.nx);
+  engine.InitMaps(plan.Rows(task), block);
   const std::size_t expected = kHeaderWords * sizeof(std::int64_t) +
                                np * (kSlotCount * sizeof(float) + sizeof(std::int16_t) + sizeof(std::int32_t));
-  if (buf.size() != expected || at + np > maps.method.size())
+  if (buf.size() != expected || np != block.method.size())
     throw DistributedRunError("internal error: a result message for task " + std::to_string(task) +
                               " does not match the map size");
-  maps.me_iterations += header[2];  // method counts: from the METHOD map at the end (CountMethods)
-  for (auto& s : maps.slots) p = Take(p, s.data() + at, np);
-  p = Take(p, maps.method.data() + at, np);
-  Take(p, maps.quality.data() + at, np);
-  return {task, static_cast<long>(np)};
+  block.me_iterations = header[2];
+  for (auto& s : block.slots) p = Take(p, s.data(), np);
+  p = Take(p, block.method.data(), np);
+  Take(p, block.quality.data(), np);
+  return task;
 }
 
 std::string RowsText(const TaskPlan& plan, long t) {
@@ -216,16 +217,41 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
   using Clock = std::chrono::steady_clock;
   Clock::time_point last_save = Clock::now();
   long saved_rows = maps.rows_done;
+  // Counts: those of the checkpoint's rows, and of each task (a checkpoint counts the finished prefix only).
+  FieldMaps before;
+  AddCounts(maps, before);
+  std::vector<FieldMaps> task_counts(static_cast<std::size_t>(plan.tasks));
+  const std::vector<int> whole_slots = WholeMapSlots(engine.options());
 
   auto stopping = [&] { return !failure.empty() || cancelled; };
   auto take = [&]() -> long { return (stopping() || next >= plan.tasks) ? -1 : next++; };
   auto save = [&](bool force) {
     if (run.checkpoint_path.empty() || maps.rows_done == saved_rows) return;
     if (!force && std::chrono::duration<double>(Clock::now() - last_save).count() < d.checkpoint_interval_s) return;
-    CountMethods(maps.rows_done, maps);
-    SaveFieldMapCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+    FieldMaps snapshot;
+    snapshot.nx = maps.nx;
+    snapshot.ny = maps.ny;
+    snapshot.rows_done = maps.rows_done;
+    AddCounts(before, snapshot);
+    for (long t = 0; t < prefix; ++t) AddCounts(task_counts[static_cast<std::size_t>(t)], snapshot);
+    run.sink->Sync();  // the rows first, then the checkpoint that counts on them
+    SaveFieldMapSinkCheckpoint(run.checkpoint_path, run.fingerprint, snapshot);
     saved_rows = maps.rows_done;
     last_save = Clock::now();
+  };
+  // Finished rows of task t (all of it, or a part computed here): counted, kept when the end needs them,
+  // handed to the sink.
+  auto deliver = [&](long t, FieldMaps& block, long first_row) {
+    CountMethods(block.ny, block);
+    FieldMaps& c = task_counts[static_cast<std::size_t>(t)];
+    AddCounts(block, c);
+    TallyRows(block, 0, block.ny, c);
+    const std::size_t at = static_cast<std::size_t>(first_row * maps.nx), np = block.method.size();
+    for (int k : whole_slots)
+      std::copy_n(block.slots[static_cast<std::size_t>(k)].begin(), np, maps.slots[static_cast<std::size_t>(k)].begin() + at);
+    const auto t0 = Clock::now();
+    run.sink->Put(block, first_row);
+    maps.sink_seconds += std::chrono::duration<double>(Clock::now() - t0).count();
   };
   auto finished = [&](long t) {
     done[static_cast<std::size_t>(t)] = 1;
@@ -235,6 +261,7 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
     save(false);
   };
   std::vector<char> buf;
+  FieldMaps block;  // one task's (or part of a task's) maps
   auto handle = [&](const MPI_Status& st) {
     int n = 0;
     MPI_Get_count(&st, MPI_BYTE, &n);
@@ -253,8 +280,9 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
     } else if (st.MPI_TAG == kTagResult) {
       ++answered_remote;
       try {  // a failure here (checkpoint not written, ...) must not leave the other ranks waiting
-        const auto [task, pixels] = UnpackResult(buf, plan, maps);
-        report.pixels_per_rank[src] += pixels;
+        const long task = UnpackResult(buf, plan, engine, block);
+        report.pixels_per_rank[src] += static_cast<long>(block.method.size());
+        deliver(task, block, plan.Begin(task));
         finished(task);
       } catch (const std::exception& e) {
         if (failure.empty()) failure = std::string("rank 0: ") + e.what();
@@ -299,11 +327,14 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
           const long end = plan.Begin(t) + plan.Rows(t), chunk = std::max(1L, (plan.Rows(t) + 3) / 4);
           for (long y = plan.Begin(t); y < end; y += chunk) {
             const auto t0 = Clock::now();
-            reader.ReadRowsRaw(y, std::min(chunk, end - y), row);
+            const long rows = std::min(chunk, end - y);
+            reader.ReadRowsRaw(y, rows, row);
             const auto t1 = Clock::now();
-            engine.Compute(row, maps);
+            engine.InitMaps(rows, block);
+            engine.Compute(row, block, y);
             maps.read_seconds += std::chrono::duration<double>(t1 - t0).count();
             maps.compute_seconds += std::chrono::duration<double>(Clock::now() - t1).count();
+            deliver(t, block, y);
             serve();
           }
           ++report.tasks_per_rank[0];
@@ -335,6 +366,9 @@ int RunCoordinator(CubeReader& reader, const FieldMapEngine& engine, const TaskP
     }
   }
   if (!failure.empty()) return kStatusFailed;
+  if (!cancelled) {  // every task is in: the counts of the whole map
+    for (const FieldMaps& c : task_counts) AddCounts(c, maps);
+  }
   return cancelled ? kStatusCancelled : kStatusOk;
 }
 
@@ -362,12 +396,14 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
   std::int64_t first_row = 0;
   if (rank == 0) {
     try {
-      engine.InitMaps(info.ny, maps);
+      if (!run.sink) throw OptionError("ComputeFieldMapsDistributed: rank 0 needs a sink for the maps (run.sink)");
+      engine.InitSinkMaps(maps);
       if (run.resume && !run.checkpoint_path.empty())
-        LoadFieldMapCheckpoint(run.checkpoint_path, run.fingerprint, maps);
+        LoadFieldMapSinkCheckpoint(run.checkpoint_path, run.fingerprint, maps);
       engine.ChooseLayout(reader);
       layout = engine.layout();
       first_row = maps.rows_done;
+      run.sink->Begin(maps.rows_done, maps);
     } catch (const std::exception& e) {
       status = kStatusFailed;
       message = e.what();
@@ -393,7 +429,6 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
   if (status == kStatusCancelled) return RunStatus::kCancelled;
   if (rank == 0) {
     maps.rows_done = info.ny;
-    CountMethods(info.ny, maps);
     engine.Finish(maps);
   }
   return RunStatus::kComplete;

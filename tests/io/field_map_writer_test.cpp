@@ -7,6 +7,8 @@
 
 #include <cmath>
 #include <filesystem>
+#include <fstream>
+#include <iterator>
 #include <limits>
 
 #include "io_test_util.hpp"
@@ -255,6 +257,142 @@ TEST(FieldMapWriter, BadMapsAreRejectedBeforeAnyFileIsCreated) {
   d.values.assign(2 * 3, 0.0f);
   EXPECT_THROW(WriteStokesCube(path, d, {630.0, 630.01, 630.03}, WavelengthFrame::kAir, "", {}, {}), FitsError);
   EXPECT_FALSE(std::filesystem::exists(path));
+}
+
+// ---- FieldMapFileStream: the map file written row block by row block (zeeline map) ----------------------
+
+std::string FileBytesWithoutDate(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::string bytes((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  for (std::size_t at = 0; at + 80 <= bytes.size(); at += 80)  // header cards are 80 bytes on 80-byte bounds
+    if (bytes.compare(at, 9, "DATE    =") == 0) bytes.replace(at, 80, 80, ' ');
+  return bytes;
+}
+
+// Layout (no values) + the rows of each image, written in a scrambled row order.
+struct StreamSample {
+  long nx = 5, ny = 7;
+  std::vector<ImageHdu> layout;
+  std::vector<std::vector<float>> floats;  // per float image
+  std::vector<std::int16_t> method;
+  std::vector<std::int32_t> quality;
+  StreamSample() {
+    const std::size_t np = static_cast<std::size_t>(nx * ny);
+    for (const char* name : {"B_TOTAL", "B_LOS", "CHI2"}) {
+      layout.push_back(MakeMap(name, nx, ny, {}));
+      floats.emplace_back(np);
+      for (std::size_t i = 0; i < np; ++i) floats.back()[i] = 0.25f * static_cast<float>(i) - 3.0f * floats.size();
+    }
+    floats[1][3] = std::numeric_limits<float>::quiet_NaN();
+    ImageHdu m = MakeMap("METHOD", nx, ny, {});
+    m.type = FitsPixelType::kInt16;
+    m.keywords.push_back({"METH1", std::string("wfa"), "weak-field approximation"});
+    layout.push_back(m);
+    ImageHdu q = MakeMap("QUALITY", nx, ny, {});
+    q.type = FitsPixelType::kInt32;
+    layout.push_back(q);
+    for (std::size_t i = 0; i < np; ++i) {
+      method.push_back(static_cast<std::int16_t>(i % 5));
+      quality.push_back(static_cast<std::int32_t>(i * 4097u));
+    }
+  }
+  // The same maps whole, as WriteFieldMaps takes them (CHI2 left out: kept = false below).
+  std::vector<ImageHdu> Whole() const {
+    std::vector<ImageHdu> out;
+    for (std::size_t k = 0; k < 2; ++k) {
+      out.push_back(layout[k]);
+      out.back().values.assign(floats[k].begin(), floats[k].end());
+    }
+    out.push_back(layout[3]);
+    out.back().values.assign(method.begin(), method.end());
+    out.push_back(layout[4]);
+    out.back().values.assign(quality.begin(), quality.end());
+    return out;
+  }
+  void WriteRows(FieldMapFileStream& s, long first, long rows) const {
+    const std::size_t at = static_cast<std::size_t>(first * nx);
+    for (std::size_t k = 0; k < 3; ++k) s.WriteRows(k, first, rows, floats[k].data() + at);
+    s.WriteRows(3, first, rows, method.data() + at);
+    s.WriteRows(4, first, rows, quality.data() + at);
+  }
+};
+
+// The reference is WriteFieldMaps, whose files the tests above read back with cfitsio and astropy and pass
+// through fitsverify: the streamed file is the same file, byte for byte (DATE aside), and passes fitsverify.
+TEST(FieldMapFileStream, RowsWrittenInAnyOrderGiveTheFileWriteFieldMapsWrites) {
+  TempDir dir;
+  const StreamSample s;
+  const std::string ref = dir.File("ref.fits"), path = dir.File("maps.fits");
+  const std::string wcs = MakeHelioprojectiveWcs(s.nx, s.ny, 0.5, 10.0, -20.0);
+  WriteFieldMaps(ref, s.Whole(), wcs, SampleOptions());
+  {
+    FieldMapFileStream stream(path, s.layout, wcs, SampleOptions());
+    s.WriteRows(stream, 4, 3);
+    s.WriteRows(stream, 0, 1);
+    EXPECT_FALSE(std::filesystem::exists(path));  // nothing under the name before Commit
+    s.WriteRows(stream, 1, 3);
+    std::vector<float> back(static_cast<std::size_t>(2 * s.nx));
+    stream.ReadRows(1, 4, 2, back.data());
+    EXPECT_EQ(back[0], s.floats[1][static_cast<std::size_t>(4 * s.nx)]);
+    stream.Commit({true, true, false, true, true});
+  }
+  EXPECT_EQ(FileBytesWithoutDate(path), FileBytesWithoutDate(ref));
+  ExpectFitsverifyClean(path);
+  int files = 0;
+  for (const auto& e : std::filesystem::directory_iterator(dir.path())) files += e.is_regular_file();
+  EXPECT_EQ(files, 2);  // no temporary file left
+}
+
+// Without Commit a temporary working file disappears; a chosen one (--resume) stays, and reopened it
+// continues: the rows written before are read back, the missing ones added, and the primary header gets the
+// provenance of the run that commits.
+TEST(FieldMapFileStream, AWorkingFileIsRemovedOrKeptAndAKeptOneContinues) {
+  TempDir dir;
+  const StreamSample s;
+  const std::string path = dir.File("maps.fits"), partial = dir.File("maps.fits.partial");
+  {
+    FieldMapFileStream stream(path, s.layout, "", SampleOptions());
+    s.WriteRows(stream, 0, 2);
+  }
+  EXPECT_TRUE(std::filesystem::is_empty(dir.path()));
+  {
+    FitsWriteOptions first = SampleOptions();
+    first.provenance.command_line = "first run";
+    FieldMapFileStream stream(path, s.layout, "", first, partial);
+    s.WriteRows(stream, 0, 4);
+    stream.Flush();
+  }
+  ASSERT_TRUE(std::filesystem::exists(partial));
+  EXPECT_FALSE(std::filesystem::exists(path));
+  FitsWriteOptions second = SampleOptions();
+  second.provenance.command_line = "second run";
+  {
+    FieldMapFileStream stream(path, s.layout, "", second, partial, true);
+    std::vector<float> back(static_cast<std::size_t>(4 * s.nx));
+    stream.ReadRows(0, 0, 4, back.data());
+    for (std::size_t i = 0; i < back.size(); ++i) EXPECT_EQ(back[i], s.floats[0][i]) << i;
+    s.WriteRows(stream, 4, 3);
+    stream.Commit({true, true, false, true, true});
+  }
+  EXPECT_FALSE(std::filesystem::exists(partial));
+  const std::string ref = dir.File("ref.fits");
+  WriteFieldMaps(ref, s.Whole(), "", second);
+  EXPECT_EQ(FileBytesWithoutDate(path), FileBytesWithoutDate(ref));
+  ExpectFitsverifyClean(path);
+  // A partial file that does not hold this layout is refused, naming it.
+  {
+    FieldMapFileStream stream(path + "2", s.layout, "", second, partial);
+  }
+  std::vector<ImageHdu> other = s.layout;
+  other.pop_back();
+  try {
+    FieldMapFileStream stream(path + "2", other, "", second, partial, true);
+    FAIL() << "a partial file with other HDUs was reopened";
+  } catch (const FitsError& e) {
+    EXPECT_NE(std::string(e.what()).find("HDUs"), std::string::npos) << e.what();
+  }
+  // An existing output is not replaced without overwrite.
+  EXPECT_THROW(FieldMapFileStream(path, s.layout, "", second), FitsError);
 }
 
 }  // namespace

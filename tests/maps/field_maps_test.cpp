@@ -3,6 +3,7 @@
 // from the independent thin-line model (tests/maps/thin_line_model.hpp).
 #include "zeeline/maps/field_maps.hpp"
 
+#include <algorithm>
 #include <atomic>
 #include <cmath>
 #include <random>
@@ -220,6 +221,109 @@ TEST(FieldMaps, ResumedRunEqualsAnUninterruptedOne) {
   CubeReader again(dir.File("cube.fits"), one_row);
   FieldMaps m;
   EXPECT_THROW(ComputeFieldMaps(again, Options(MapMethod::kAuto), run, m), FitsError);
+}
+
+// A sink that keeps what it is given in whole maps of its own (as the map file does on disk), across runs.
+class KeepingSink : public FieldMapSink {
+ public:
+  FieldMaps kept;
+  long begun_at = -1;
+  int syncs = 0;
+  void Begin(long rows_done, FieldMaps& maps) override {
+    begun_at = rows_done;
+    if (kept.slots.empty()) {
+      kept.nx = maps.nx;
+      kept.ny = maps.ny;
+      kept.slots.assign(kSlotCount, std::vector<float>(static_cast<std::size_t>(maps.nx * maps.ny)));
+      kept.method.assign(static_cast<std::size_t>(maps.nx * maps.ny), -1);
+      kept.quality.assign(static_cast<std::size_t>(maps.nx * maps.ny), -1);
+    }
+    const std::size_t n = static_cast<std::size_t>(rows_done * maps.nx);
+    for (std::size_t k = 0; k < maps.slots.size(); ++k)
+      if (!maps.slots[k].empty()) std::copy_n(kept.slots[k].begin(), n, maps.slots[k].begin());
+  }
+  void Put(const FieldMaps& block, long first_row) override {
+    const std::size_t at = static_cast<std::size_t>(first_row * kept.nx);
+    for (std::size_t k = 0; k < block.slots.size(); ++k)
+      std::copy(block.slots[k].begin(), block.slots[k].end(), kept.slots[k].begin() + at);
+    std::copy(block.method.begin(), block.method.end(), kept.method.begin() + at);
+    std::copy(block.quality.begin(), block.quality.end(), kept.quality.begin() + at);
+  }
+  void Sync() override { ++syncs; }
+};
+
+void ExpectSameFloats(const std::vector<float>& a, const std::vector<float>& b, const char* what) {
+  ASSERT_EQ(a.size(), b.size()) << what;
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    if (std::isnan(a[i])) EXPECT_TRUE(std::isnan(b[i])) << what << " " << i;
+    else EXPECT_EQ(a[i], b[i]) << what << " " << i;
+  }
+}
+
+// With a sink the run hands over every row once and keeps only the counts and the maps the disambiguation
+// needs; interrupted and resumed (a checkpoint of counts, the rows in the sink) it gives the maps, the
+// disambiguated azimuth and the counts of one uninterrupted in-memory run.
+TEST(FieldMaps, ASinkGetsTheRowsOfAnInMemoryRunAlsoWhenResumed) {
+  TempDir dir;
+  test::WriteCube(dir.File("cube.fits"), Spec({test::kA, test::kB, test::kW, test::kS}, false));
+  CubeReadOptions one_row;
+  one_row.max_tile_mib = 1e-6;  // one spatial row per tile
+  FieldMapOptions o = Options(MapMethod::kAuto);
+  o.disambiguate = true;
+  const FieldMaps full = RunMaps(dir.File("cube.fits"), o, one_row);
+
+  KeepingSink sink;
+  std::atomic<bool> cancel{false};
+  FieldMapRunOptions run;
+  run.checkpoint_path = dir.File("maps.checkpoint");
+  run.fingerprint = "test";
+  run.cancel = &cancel;
+  run.sink = &sink;
+  run.progress = [&](long done, long) {
+    if (done == 3) cancel.store(true);
+  };
+  {
+    CubeReader reader(dir.File("cube.fits"), one_row);
+    FieldMaps part;
+    EXPECT_EQ(ComputeFieldMaps(reader, o, run, part), RunStatus::kCancelled);
+    EXPECT_EQ(part.rows_done, 3);
+    EXPECT_EQ(sink.begun_at, 0);
+    EXPECT_TRUE(part.method.empty() && part.quality.empty());  // not held
+    EXPECT_TRUE(part.slots[kSlotField].empty());
+    EXPECT_EQ(part.slots[kSlotAzimuth].size(), static_cast<std::size_t>(full.nx * full.ny));
+  }
+  EXPECT_GE(sink.syncs, 3);  // before every checkpoint
+  cancel.store(false);
+  run.resume = true;
+  run.progress = nullptr;
+  CubeReader reader(dir.File("cube.fits"), one_row);
+  FieldMaps m;
+  EXPECT_EQ(ComputeFieldMaps(reader, o, run, m), RunStatus::kComplete);
+  EXPECT_EQ(sink.begun_at, 3);
+  for (int s = 0; s < kSlotCount; ++s)
+    if (s != kSlotAzimuth) ExpectSameFloats(sink.kept.slots[s], full.slots[s], MapSlotName(s));
+  EXPECT_EQ(sink.kept.method, full.method);
+  EXPECT_EQ(sink.kept.quality, full.quality);
+  ExpectSameFloats(m.slots[kSlotAzimuth], full.slots[kSlotAzimuth], "disambiguated B_AZIM");
+  EXPECT_EQ(m.disambiguation, full.disambiguation);
+  for (int k = 0; k < 5; ++k) EXPECT_EQ(m.method_counts[k], full.method_counts[k]) << k;
+  EXPECT_EQ(m.flagged_pixels, full.flagged_pixels);
+  EXPECT_EQ(m.usable_pixels, full.usable_pixels);
+  EXPECT_EQ(m.slots_with_values, full.slots_with_values);
+  // The counts against the maps themselves.
+  long flagged = 0;
+  for (auto q : full.quality) flagged += q != 0;
+  EXPECT_EQ(full.flagged_pixels, flagged);
+  for (int s = 0; s < kSlotCount; ++s) {
+    const bool any = std::any_of(full.slots[s].begin(), full.slots[s].end(), [](float x) { return std::isfinite(x); });
+    EXPECT_EQ(((full.slots_with_values >> s) & 1u) != 0, any) << MapSlotName(s);
+  }
+  // A checkpoint of whole maps (a run without a sink) is refused by a run with one, and the reverse.
+  FieldMapRunOptions plain = run;
+  plain.sink = nullptr;
+  CubeReader again(dir.File("cube.fits"), one_row);
+  FieldMaps other;
+  EXPECT_THROW(ComputeFieldMaps(again, o, plain, other), FitsError);
 }
 
 TEST(FieldMaps, RestWavelengthOutsideTheCubeIsAClearError) {

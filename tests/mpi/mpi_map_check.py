@@ -27,6 +27,9 @@ import tempfile
 import numpy as np
 from astropy.io import fits
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "common"))
+from damaged_fits import corrupt_row, fpack  # noqa: E402
+
 ZEELINE, ZEELINE_SERIAL, MPIEXEC = sys.argv[1:4]
 SRC = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 LINE = ["--line", "FeI_6302", "--catalog", os.path.join(SRC, "demo_maps", "lines.csv")]
@@ -70,24 +73,6 @@ def same_maps(a, b, what):
         check(same, f"{what}: {name} differs from the one-process run")
 
 
-def corrupt_row(src, dst, y_bad):
-    """Copy of a tile-compressed cube with the compressed bytes of every tile of spatial row y_bad (0-based)
-    overwritten. fpack's default tiles are single rows of NAXIS1, so tile i holds row i % NAXIS2."""
-    with fits.open(src, disable_image_compression=True) as h:
-        hdr = h[1].header
-        data_at = h.fileinfo(1)["datLoc"]
-        nrow, row_bytes, ny = hdr["NAXIS2"], hdr["NAXIS1"], hdr["ZNAXIS2"]
-        heap_at = data_at + hdr.get("THEAP", nrow * row_bytes)
-        assert hdr["ZTILE1"] == hdr["ZNAXIS1"] and all(hdr[f"ZTILE{k}"] == 1 for k in (2, 3, 4))
-    raw = bytearray(open(src, "rb").read())
-    desc = np.frombuffer(bytes(raw), dtype=">i4", count=2 * nrow, offset=data_at).reshape(nrow, 2)
-    for i in range(nrow):
-        if i % ny == y_bad:
-            n, off = int(desc[i, 0]), int(desc[i, 1])
-            raw[heap_at + off:heap_at + off + n] = b"\x5a" * n
-    open(dst, "wb").write(bytes(raw))
-
-
 with tempfile.TemporaryDirectory() as tmp:
     def path(name):
         return os.path.join(tmp, name)
@@ -129,7 +114,7 @@ with tempfile.TemporaryDirectory() as tmp:
 
     # ---- a failing rank, then --resume
     packed = path("packed.fits")
-    fp = subprocess.run(["fpack", "-g", "-q", "0", "-O", packed, cube], capture_output=True, text=True)
+    fp = fpack(cube, packed)
     check(fp.returncode == 0 and os.path.exists(packed), f"fpack failed: {fp.stderr.strip()}")
     if os.path.exists(packed):
         tiles = ["--tile-mib", "0.05"]  # one-row reader tiles: the spectral window comes from row 1 only

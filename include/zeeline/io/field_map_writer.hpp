@@ -17,6 +17,8 @@
 // naming the file, the HDU (EXTNAME) and the problem.
 #pragma once
 
+#include <cstdint>
+#include <memory>
 #include <string>
 #include <utility>
 #include <variant>
@@ -95,6 +97,41 @@ struct FitsWriteOptions {
 /// `spatial_wcs_header` is CubeInfo::spatial_wcs_header of the input (may be empty: no WCS).
 void WriteFieldMaps(const std::string& path, const std::vector<ImageHdu>& maps,
                     const std::string& spatial_wcs_header, const FitsWriteOptions& options);
+
+/// A field-map file written row block by row block, so that a map run need not hold its maps (the file is
+/// the one WriteFieldMaps writes from the same HDUs). The primary HDU and every image HDU of `layout` (2-D,
+/// no values: headers, types and keywords only) are created at once; cfitsio reserves each image's data area
+/// when the next HDU is created. Rows are then written in any order; Commit removes the HDUs the caller
+/// drops (maps without a finite value), closes the file and moves it onto `path` (never before: nothing
+/// appears under `path` on failure; an existing `path` is replaced only with options.overwrite).
+/// The working file is a temporary one in the destination directory, removed unless committed; or, with a
+/// `work_path`, that file, kept when not committed so that a later run can reopen it (`reopen`: the file
+/// must hold the same HDUs; its primary header gets this run's provenance at Commit) and continue.
+/// Errors: FitsError naming the file, the HDU and the problem. Memory: cfitsio's buffers only.
+class FieldMapFileStream {
+ public:
+  FieldMapFileStream(const std::string& path, std::vector<ImageHdu> layout, const std::string& spatial_wcs_header,
+                     const FitsWriteOptions& options, const std::string& work_path = "", bool reopen = false);
+  ~FieldMapFileStream();
+  FieldMapFileStream(const FieldMapFileStream&) = delete;
+  FieldMapFileStream& operator=(const FieldMapFileStream&) = delete;
+
+  /// Rows [first_row, first_row + rows) of image `hdu` (index into the layout), x fastest.
+  void WriteRows(std::size_t hdu, long first_row, long rows, const float* values);
+  void WriteRows(std::size_t hdu, long first_row, long rows, const std::int16_t* values);
+  void WriteRows(std::size_t hdu, long first_row, long rows, const std::int32_t* values);
+  /// Reads rows back (a reopened file's finished rows).
+  void ReadRows(std::size_t hdu, long first_row, long rows, float* values);
+  /// Hands everything written so far to the operating system (it survives the end of the process).
+  void Flush();
+  /// Removes the images whose keep[i] is false, finishes the file and moves it onto `path`.
+  void Commit(const std::vector<bool>& keep);
+  const std::vector<ImageHdu>& layout() const;
+
+ private:
+  struct State;
+  std::unique_ptr<State> state_;
+};
 
 /// A Stokes cube in memory, laid out like CubeTile: values[((p * n_stokes) + s) * n_wavelength + w]
 /// with p = y * nx + x.

@@ -71,5 +71,9 @@ constexpr std::uint32_t kQualityInputRejected =
 /// Throws FitsError naming `path` when no pixel of the map passed the check ("no usable pixel"), with the
 /// number of pixels failing each test.
 void RequireUsablePixel(const std::vector<std::int32_t>& quality, const std::string& path);
+/// The same from counts (a map that is not held whole): `usable` pixels passed, `rejected` failed
+/// NaN/Inf, absurd values, continuum I <= 0, |Q|,|U|,|V| > I; nothing happens when usable > 0 or pixels == 0.
+void RequireUsablePixel(std::int64_t usable, std::int64_t pixels, const std::int64_t (&rejected)[4],
+                        const std::string& path);
 
 }  // namespace zeeline

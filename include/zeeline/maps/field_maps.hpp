@@ -24,10 +24,17 @@
 // "no usable pixel" is thrown after the run; a pixel whose |B_LOS|
 // and B_TRANS are both below detection_sigma times their errors gets LOW_SIGNAL; an estimate outside its
 // method's validity gets OUT_OF_RANGE.
-// The cube is read tile by tile (io/cube_reader.hpp), so memory holds one tile plus the 2-D maps.
+// The cube is read tile by tile (io/cube_reader.hpp). Without a sink, memory holds one tile plus the whole
+// 2-D maps (58 bytes per pixel). With a sink (FieldMapRunOptions::sink; `zeeline map` writes the rows straight
+// into its output file) each finished tile's rows go to the sink and memory holds two tiles (the next one is
+// read while the current one is computed) and the tile's maps, whatever the cube size; only the maps that the
+// end of the run needs whole stay: B_LOS, B_TRANS, B_TRANS_SIGMA and B_AZIM with disambiguate (16 bytes per
+// pixel, WholeMapSlots), none otherwise.
 // Checkpoints: after every tile the finished rows can be saved (checkpoint_path) and a later run with
 // resume = true continues from them, giving the same maps as an uninterrupted run (the computation of a
-// pixel depends on that pixel only).
+// pixel depends on that pixel only). Without a sink the checkpoint holds the maps of the finished rows
+// (rewritten after every tile); with a sink it holds only the row count and the counts of FieldMaps (a few
+// hundred bytes) and the sink keeps the rows (Sync before every checkpoint).
 #pragma once
 
 #include <atomic>
@@ -110,9 +117,42 @@ struct FieldMaps {
   std::int64_t method_counts[5] = {0, 0, 0, 0, 0};  ///< pixels per MapMethod code
   std::vector<std::int16_t> disambiguation;         ///< DisambiguationFlag per pixel; empty unless disambiguated
   std::int64_t me_iterations = 0;                   ///< LM trial steps summed over the ME pixels
+  // Counts over the finished rows, like method_counts (kept in checkpoints; TallyRows):
+  std::int64_t flagged_pixels = 0;  ///< pixels with any QUALITY bit
+  std::int64_t usable_pixels = 0;   ///< pixels that passed the data-sanity check (data_sanity.hpp)
+  /// Pixels failing it, by cause: NaN/Inf samples, absurd values, continuum I <= 0, |Q|,|U|,|V| > I.
+  std::int64_t rejected_pixels[4] = {0, 0, 0, 0};
+  std::uint32_t slots_with_values = 0;  ///< bit k set: map slot k has a finite value somewhere
   /// Wall-clock seconds of this run (not kept in checkpoints): reading tiles (cfitsio + reorder) in all,
-  /// the part of it the estimators waited for (the rest ran behind the computation), and the estimators.
-  double read_seconds = 0.0, read_wait_seconds = 0.0, compute_seconds = 0.0;
+  /// the part of it the estimators waited for (the rest ran behind the computation), the estimators, and
+  /// handing finished rows to the sink.
+  double read_seconds = 0.0, read_wait_seconds = 0.0, compute_seconds = 0.0, sink_seconds = 0.0;
+};
+
+/// Adds the counts of rows [row_begin, row_begin + rows) of `m` (QUALITY and the map slots; row indices of
+/// `m`) to flagged_pixels, usable_pixels, rejected_pixels and slots_with_values of `into` (may be `m`).
+void TallyRows(const FieldMaps& m, long row_begin, long rows, FieldMaps& into);
+/// Adds every count of `from` (method_counts, me_iterations and those of TallyRows) to `into`.
+void AddCounts(const FieldMaps& from, FieldMaps& into);
+
+/// The map slots the end of a run needs whole (FieldMapEngine::Finish): B_LOS, B_TRANS, B_TRANS_SIGMA and
+/// B_AZIM for the azimuth disambiguation, nothing otherwise. With a sink only these stay in memory.
+std::vector<int> WholeMapSlots(const FieldMapOptions& options);
+
+/// Where finished rows go instead of whole maps in memory (FieldMapRunOptions::sink): `zeeline map` writes
+/// them into its output file as they come (src/cli/map_file_sink.hpp).
+class FieldMapSink {
+ public:
+  virtual ~FieldMapSink() = default;
+  /// Called once, before any Put: rows [0, rows_done) were finished by an earlier run (checkpoint; 0 = a
+  /// fresh run). Resuming, the sink fills the rows [0, rows_done) of maps.slots[k] for k in WholeMapSlots
+  /// from what it kept.
+  virtual void Begin(long rows_done, FieldMaps& maps) = 0;
+  /// Rows [first_row, first_row + block.ny) are finished (block: their maps, nx = the cube's). Rows come
+  /// in any order (the MPI driver), each once per run.
+  virtual void Put(const FieldMaps& block, long first_row) = 0;
+  /// Makes every row Put so far survive the end of this process: called before each checkpoint names them.
+  virtual void Sync() = 0;
 };
 
 struct FieldMapRunOptions {
@@ -121,11 +161,14 @@ struct FieldMapRunOptions {
   std::string fingerprint;      ///< identifies input + options; a checkpoint with another one is refused
   const std::atomic<bool>* cancel = nullptr;           ///< checked between tiles
   std::function<void(long rows_done, long rows)> progress;  ///< called after each tile
+  /// Set: finished rows go to the sink, and the FieldMaps of the run keep the counts, nx/ny and the
+  /// WholeMapSlots only (method and quality stay empty). Not owned.
+  FieldMapSink* sink = nullptr;
 };
 
 enum class RunStatus { kComplete, kCancelled };
 
-/// Runs the estimators over the whole cube. Throws OptionError for invalid options, FitsError for
+/// Runs the estimators over the whole cube (into `maps`, or through run.sink). Throws OptionError for invalid options, FitsError for
 /// read problems and for a cube that lacks what the options need (naming the file and the Stokes axis).
 RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,
                            FieldMaps& maps);
@@ -157,10 +200,13 @@ class FieldMapEngine {
   void ChooseLayout(const RawCubeTile& first_tile);
   void set_layout(SpectralLayout layout) { layout_ = std::move(layout); }
   const SpectralLayout& layout() const { return layout_; }
+  const FieldMapOptions& options() const { return o_; }
 
   /// Fresh maps of rows [row_begin, row_begin + rows): NaN maps, method 0, QUALITY MASKED; nx from the
   /// cube, ny = rows.
   void InitMaps(long rows, FieldMaps& maps) const;
+  /// The FieldMaps of a run with a sink: nx, ny of the cube, zero counts, the WholeMapSlots (NaN) only.
+  void InitSinkMaps(FieldMaps& maps) const;
   /// Computes every pixel of `tile` into `maps`, whose first row is cube row `first_row` (0 for maps of the
   /// whole cube); adds to method_counts and me_iterations. OpenMP threads as FieldMapOptions::threads.
   void Compute(const CubeTile& tile, FieldMaps& maps, long first_row = 0) const;
@@ -168,7 +214,8 @@ class FieldMapEngine {
   /// (RawCubeTile::Gather), with no reorder pass over the tile; identical results.
   void Compute(const RawCubeTile& tile, FieldMaps& maps, long first_row = 0) const;
   /// The steps that need the whole map, run once after every pixel is in: FitsError "no usable pixel" when
-  /// every pixel failed the data-sanity check (data_sanity.hpp), then the azimuth disambiguation.
+  /// every pixel failed the data-sanity check (data_sanity.hpp; from maps.quality when it holds the whole
+  /// map, else from the counts of TallyRows), then the azimuth disambiguation (of the WholeMapSlots).
   void Finish(FieldMaps& maps) const;
 
  private:
@@ -189,5 +236,9 @@ class FieldMapEngine {
 /// from another input or other options (fingerprint), or does not match the maps' size.
 void SaveFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& maps);
 bool LoadFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& maps);
+/// The checkpoint of a run with a sink: rows_done and the counts of `maps` only (the sink keeps the rows).
+/// The two kinds are told apart by their first bytes; loading one as the other throws FitsError.
+void SaveFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& maps);
+bool LoadFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& maps);
 
 }  // namespace zeeline
