@@ -349,40 +349,46 @@ class PixelProcessor {
   WeakFieldRegimeOptions regime_;
 };
 
-// ---- checkpoints: a small binary file rewritten (temp + rename) after every tile.
+// ---- checkpoints: a small binary file rewritten (temp + rename) after every tile. Both kinds begin with
+// the magic, the fingerprint and {nx, ny, rows_done, kSlotCount}; whole maps (no sink) follow with the maps of
+// the finished rows, a run with a sink with its counts only.
 constexpr char kCheckpointMagic[8] = {'Z', 'L', 'C', 'K', 'P', 'T', '0', '1'};
 constexpr char kSinkCheckpointMagic[8] = {'Z', 'L', 'C', 'K', 'P', 'T', 'S', '1'};
 
-void SaveCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+template <class Body>
+void WriteCheckpoint(const std::string& path, const char (&magic)[8], const std::string& fingerprint,
+                     const FieldMaps& m, Body body) {
   const std::string tmp = path + ".tmp";
   {
     std::ofstream out(tmp, std::ios::binary | std::ios::trunc);
     if (!out) throw FitsError(path + ": cannot write the checkpoint file");
-    out.write(kCheckpointMagic, 8);
+    out.write(magic, 8);
     const std::uint64_t flen = fingerprint.size();
     out.write(reinterpret_cast<const char*>(&flen), sizeof flen);
     out.write(fingerprint.data(), static_cast<std::streamsize>(flen));
     const std::int64_t header[4] = {m.nx, m.ny, m.rows_done, kSlotCount};
     out.write(reinterpret_cast<const char*>(header), sizeof header);
-    out.write(reinterpret_cast<const char*>(m.method_counts), sizeof m.method_counts);
-    const std::size_t np = static_cast<std::size_t>(m.nx * m.rows_done);
-    for (const auto& s : m.slots) out.write(reinterpret_cast<const char*>(s.data()), static_cast<std::streamsize>(np * sizeof(float)));
-    out.write(reinterpret_cast<const char*>(m.method.data()), static_cast<std::streamsize>(np * sizeof(std::int16_t)));
-    out.write(reinterpret_cast<const char*>(m.quality.data()), static_cast<std::streamsize>(np * sizeof(std::int32_t)));
+    body(out);
     if (!out) throw FitsError(path + ": writing the checkpoint failed (disk full?)");
   }
   if (std::rename(tmp.c_str(), path.c_str()) != 0) throw FitsError(path + ": cannot rename the checkpoint into place");
 }
 
-bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
-  std::ifstream in(path, std::ios::binary);
+// Opens a checkpoint of one kind (a run with a sink or without) and reads its head into m.rows_done; false
+// when there is none.
+bool OpenCheckpoint(std::ifstream& in, const std::string& path, bool sink_kind, const std::string& fingerprint,
+                    FieldMaps& m) {
+  const char* magic = sink_kind ? kSinkCheckpointMagic : kCheckpointMagic;
+  in.open(path, std::ios::binary);
   if (!in) return false;
-  char magic[8];
-  in.read(magic, 8);
-  if (in && std::memcmp(magic, kSinkCheckpointMagic, 8) == 0)
-    throw FitsError(path + ": this checkpoint belongs to a map file written as it goes (zeeline map), not to "
-                           "whole maps in memory; remove it or run without --resume");
-  if (!in || std::memcmp(magic, kCheckpointMagic, 8) != 0)
+  char found[8];
+  in.read(found, 8);
+  if (in && std::memcmp(found, sink_kind ? kCheckpointMagic : kSinkCheckpointMagic, 8) == 0)
+    throw FitsError(path + (sink_kind ? ": this checkpoint holds whole maps (a library run without a sink), not the "
+                                        "rows of a map file; remove it or run without --resume"
+                                      : ": this checkpoint belongs to a map file written as it goes (zeeline map), "
+                                        "not to whole maps in memory; remove it or run without --resume"));
+  if (!in || std::memcmp(found, magic, 8) != 0)
     throw FitsError(path + ": not a zeeline checkpoint (bad magic); remove it or run without --resume");
   std::uint64_t flen = 0;
   in.read(reinterpret_cast<char*>(&flen), sizeof flen);
@@ -396,6 +402,22 @@ bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint,
   if (!in || header[0] != m.nx || header[1] != m.ny || header[3] != kSlotCount || header[2] < 0 || header[2] > m.ny)
     throw FitsError(path + ": checkpoint dimensions do not match the cube");
   m.rows_done = header[2];
+  return true;
+}
+
+void SaveCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+  WriteCheckpoint(path, kCheckpointMagic, fingerprint, m, [&m](std::ofstream& out) {
+    out.write(reinterpret_cast<const char*>(m.method_counts), sizeof m.method_counts);
+    const std::size_t np = static_cast<std::size_t>(m.nx * m.rows_done);
+    for (const auto& s : m.slots) out.write(reinterpret_cast<const char*>(s.data()), static_cast<std::streamsize>(np * sizeof(float)));
+    out.write(reinterpret_cast<const char*>(m.method.data()), static_cast<std::streamsize>(np * sizeof(std::int16_t)));
+    out.write(reinterpret_cast<const char*>(m.quality.data()), static_cast<std::streamsize>(np * sizeof(std::int32_t)));
+  });
+}
+
+bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
+  std::ifstream in;
+  if (!OpenCheckpoint(in, path, false, fingerprint, m)) return false;
   in.read(reinterpret_cast<char*>(m.method_counts), sizeof m.method_counts);
   const std::size_t np = static_cast<std::size_t>(m.nx * m.rows_done);
   for (auto& s : m.slots) in.read(reinterpret_cast<char*>(s.data()), static_cast<std::streamsize>(np * sizeof(float)));
@@ -405,67 +427,33 @@ bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint,
   return true;
 }
 
-// The checkpoint of a run with a sink: the counts only; the sink keeps the rows (FieldMapSink::Sync).
-constexpr int kSinkCounts = 5 + 1 + 2 + 4;  // method_counts, me_iterations, flagged, usable, rejected
+// The counts a checkpoint of a run with a sink holds (the sink keeps the rows, FieldMapSink::Sync).
+constexpr int kSinkCounts = 5 + 1 + 2 + 4 + 1;  // method_counts, me_iterations, flagged, usable, rejected, slots
 
-void SinkCounts(const FieldMaps& m, std::int64_t (&c)[kSinkCounts]) {
+void SaveSinkCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+  std::int64_t c[kSinkCounts];
   for (int k = 0; k < 5; ++k) c[k] = m.method_counts[k];
   c[5] = m.me_iterations;
   c[6] = m.flagged_pixels;
   c[7] = m.usable_pixels;
   for (int k = 0; k < 4; ++k) c[8 + k] = m.rejected_pixels[k];
-}
-
-void SaveSinkCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
-  const std::string tmp = path + ".tmp";
-  {
-    std::ofstream out(tmp, std::ios::binary | std::ios::trunc);
-    if (!out) throw FitsError(path + ": cannot write the checkpoint file");
-    out.write(kSinkCheckpointMagic, 8);
-    const std::uint64_t flen = fingerprint.size();
-    out.write(reinterpret_cast<const char*>(&flen), sizeof flen);
-    out.write(fingerprint.data(), static_cast<std::streamsize>(flen));
-    const std::int64_t header[5] = {m.nx, m.ny, m.rows_done, kSlotCount, m.slots_with_values};
-    out.write(reinterpret_cast<const char*>(header), sizeof header);
-    std::int64_t counts[kSinkCounts];
-    SinkCounts(m, counts);
-    out.write(reinterpret_cast<const char*>(counts), sizeof counts);
-    if (!out) throw FitsError(path + ": writing the checkpoint failed (disk full?)");
-  }
-  if (std::rename(tmp.c_str(), path.c_str()) != 0) throw FitsError(path + ": cannot rename the checkpoint into place");
+  c[12] = m.slots_with_values;
+  WriteCheckpoint(path, kSinkCheckpointMagic, fingerprint, m,
+                  [&c](std::ofstream& out) { out.write(reinterpret_cast<const char*>(c), sizeof c); });
 }
 
 bool LoadSinkCheckpointFile(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) return false;
-  char magic[8];
-  in.read(magic, 8);
-  if (in && std::memcmp(magic, kCheckpointMagic, 8) == 0)
-    throw FitsError(path + ": this checkpoint holds whole maps (a library run without a sink), not the rows of a "
-                           "map file; remove it or run without --resume");
-  if (!in || std::memcmp(magic, kSinkCheckpointMagic, 8) != 0)
-    throw FitsError(path + ": not a zeeline checkpoint (bad magic); remove it or run without --resume");
-  std::uint64_t flen = 0;
-  in.read(reinterpret_cast<char*>(&flen), sizeof flen);
-  if (!in || flen > (1u << 20)) throw FitsError(path + ": corrupt checkpoint header");
-  std::string fp(flen, '\0');
-  in.read(fp.data(), static_cast<std::streamsize>(flen));
-  if (fp != fingerprint)
-    throw FitsError(path + ": the checkpoint was made from another input or other options; remove it to start again");
-  std::int64_t header[5];
-  in.read(reinterpret_cast<char*>(header), sizeof header);
-  if (!in || header[0] != m.nx || header[1] != m.ny || header[3] != kSlotCount || header[2] < 0 || header[2] > m.ny)
-    throw FitsError(path + ": checkpoint dimensions do not match the cube");
+  std::ifstream in;
+  if (!OpenCheckpoint(in, path, true, fingerprint, m)) return false;
   std::int64_t c[kSinkCounts];
   in.read(reinterpret_cast<char*>(c), sizeof c);
   if (!in) throw FitsError(path + ": checkpoint is truncated");
-  m.rows_done = header[2];
-  m.slots_with_values = static_cast<std::uint32_t>(header[4]);
   for (int k = 0; k < 5; ++k) m.method_counts[k] = c[k];
   m.me_iterations = c[5];
   m.flagged_pixels = c[6];
   m.usable_pixels = c[7];
   for (int k = 0; k < 4; ++k) m.rejected_pixels[k] = c[8 + k];
+  m.slots_with_values = static_cast<std::uint32_t>(c[12]);
   return true;
 }
 

@@ -12,13 +12,15 @@
 // it). Inside a rank, pixels are spread over its OpenMP threads (FieldMapOptions::threads).
 // Rank 0 also computes tasks when there are at most kCoordinatorComputesUpTo ranks (with more, answering
 // requests at once matters more than one more worker).
-// Results: each rank sends the maps of a finished task to rank 0, which places them and, after the last
-// one, runs FieldMapEngine::Finish (azimuth disambiguation) on the whole map. Every pixel goes through the
+// Results: each rank sends the maps of a finished task to rank 0, which counts them and hands them to the
+// sink (FieldMapRunOptions::sink, required on rank 0: `map` writes them into the map file at their rows, in
+// the order they arrive), keeping whole only the maps the end needs (WholeMapSlots); after the last one it
+// runs FieldMapEngine::Finish (azimuth disambiguation). Every pixel goes through the
 // same FieldMapEngine::Compute as in ComputeFieldMaps and depends on that pixel only, so the maps are
 // bit-identical to a one-process run, whatever the number of ranks, threads or the task size.
-// Checkpoints (FieldMapRunOptions::checkpoint_path): rank 0 writes the maps of the longest run of finished
-// rows from the start (the one-process format, so either kind of run resumes the other's) at most every
-// checkpoint_interval_s seconds and whenever a run stops early.
+// Checkpoints (FieldMapRunOptions::checkpoint_path): rank 0 syncs the sink and writes the counts of the
+// longest run of finished rows from the start (the one-process format of a run with a sink, so either kind
+// of run resumes the other's) at most every checkpoint_interval_s seconds and whenever a run stops early.
 // Failures: a rank whose task throws (a read error of its rows, ...) reports the rows and the message to
 // rank 0, which stops handing out tasks, collects the tasks in flight, saves the checkpoint and ends the run
 // on every rank with DistributedRunError; nothing is written. Cancellation (FieldMapRunOptions::cancel, on
@@ -63,7 +65,8 @@ class DistributedRunError : public std::runtime_error {
 };
 
 /// Runs on every rank of MPI_COMM_WORLD with the same arguments (each rank's own reader of the same cube).
-/// On rank 0, `maps` holds the complete maps on return; on the other ranks it is left empty. Throws
+/// On rank 0, `maps` holds the counts and the WholeMapSlots on return (the rows went to run.sink); on the
+/// other ranks it is left empty. Throws
 /// OptionError / FitsError from the checks of FieldMapEngine (identical on every rank) and
 /// DistributedRunError as above.
 RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions& options,
