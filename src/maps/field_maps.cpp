@@ -834,13 +834,26 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   } else if (maps.rows_done < info.ny) {
     start_read(maps.rows_done, next_tile);
   }
-  FieldMaps block;  // with a sink: the maps of the current tile's rows (the buffers are reused)
+  // With a sink: the maps of a tile's rows, two of them, so that one is handed to the sink on its own thread
+  // while the next is computed (not with checkpoints, which must count only rows the sink has; nor with one
+  // thread). Declared after the blocks: a write in flight is waited for before they go away.
+  FieldMaps blocks[2];
+  int current = 0;
+  const bool overlap_writes = threads > 1 && !checkpoints;
+  std::future<void> writing;
+  auto wait_for_writing = [&] {
+    if (!writing.valid()) return;
+    const auto t0 = Clock::now();
+    writing.get();  // rethrows a write error
+    maps.sink_seconds += seconds_since(t0);
+  };
   for (long y0 = maps.rows_done; y0 < info.ny; y0 += rows_per_tile) {
     const auto t_wait = Clock::now();
     pending.get();  // rethrows a read error
     maps.read_wait_seconds += seconds_since(t_wait);
     std::swap(tile, next_tile);
     if (run.cancel && run.cancel->load()) {
+      wait_for_writing();
       save_checkpoint();
       return RunStatus::kCancelled;
     }
@@ -855,6 +868,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     } join{pending};
     const auto t_compute = Clock::now();
     if (sink) {
+      FieldMaps& block = blocks[current];
       if (block.ny != rows || block.nx != info.nx) engine.InitMaps(rows, block);
       std::fill(std::begin(block.method_counts), std::end(block.method_counts), 0);
       block.me_iterations = 0;
@@ -865,9 +879,11 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
       for (int k : whole_slots)
         std::copy_n(block.slots[static_cast<std::size_t>(k)].begin(), np, maps.slots[static_cast<std::size_t>(k)].begin() + at);
       maps.compute_seconds += seconds_since(t_compute);
-      const auto t_sink = Clock::now();
-      sink->Put(block, y0);
-      maps.sink_seconds += seconds_since(t_sink);
+      wait_for_writing();  // the other block is free again
+      writing = std::async(overlap_writes ? std::launch::async : std::launch::deferred,
+                           [sink, &block, y0] { sink->Put(block, y0); });
+      if (!overlap_writes) wait_for_writing();
+      current ^= 1;
     } else {
       engine.Compute(tile, maps);
       TallyRows(maps, y0, rows, maps);
@@ -877,6 +893,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     save_checkpoint();
     if (run.progress) run.progress(maps.rows_done, info.ny);
   }
+  wait_for_writing();
   maps.read_seconds += read_seconds;
   const auto t_finish = Clock::now();
   engine.Finish(maps);

@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cstring>
+#include <exception>
 #include <limits>
 #include <sstream>
 #include <thread>
@@ -152,6 +153,29 @@ long UnpackResult(const std::vector<char>& buf, const TaskPlan& plan, const Fiel
   Take(p, block.quality.data(), np);
   return task;
 }
+
+// Rank 0's sink, remembering the first failure of the real one: that failure (the map file could not be
+// written: exit 3 in `map`) is rethrown as it was on rank 0 once every rank knows the run failed.
+class RecordingSink : public FieldMapSink {
+ public:
+  explicit RecordingSink(FieldMapSink* sink) : sink_(sink) {}
+  void Begin(long rows_done, FieldMaps& maps) override { Guard([&] { sink_->Begin(rows_done, maps); }); }
+  void Put(const FieldMaps& block, long first_row) override { Guard([&] { sink_->Put(block, first_row); }); }
+  void Sync() override { Guard([&] { sink_->Sync(); }); }
+  std::exception_ptr failure;
+
+ private:
+  template <class F>
+  void Guard(F&& f) {
+    try {
+      f();
+    } catch (...) {
+      if (!failure) failure = std::current_exception();
+      throw;
+    }
+  }
+  FieldMapSink* sink_;
+};
 
 std::string RowsText(const TaskPlan& plan, long t) {
   return "rows " + std::to_string(plan.Begin(t) + 1) + ".." + std::to_string(plan.Begin(t) + plan.Rows(t));
@@ -388,6 +412,13 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
   const int rank = Rank(), size = Size();
   const CubeInfo& info = reader.info();
   FieldMapEngine engine(info, o);  // the same checks on every rank
+  RecordingSink sink(run.sink);
+  FieldMapRunOptions run0 = run;
+  if (rank == 0 && run.sink) run0.sink = &sink;
+  auto fail = [&](const std::string& message) {
+    if (rank == 0 && sink.failure) std::rethrow_exception(sink.failure);
+    throw DistributedRunError(message);
+  };
 
   // Setup on rank 0 (checkpoint, spectral layout); its outcome goes to every rank.
   int status = kStatusOk;
@@ -403,14 +434,14 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
       engine.ChooseLayout(reader);
       layout = engine.layout();
       first_row = maps.rows_done;
-      run.sink->Begin(maps.rows_done, maps);
+      run0.sink->Begin(maps.rows_done, maps);
     } catch (const std::exception& e) {
       status = kStatusFailed;
       message = e.what();
     }
   }
   BroadcastStatus(status, message);
-  if (status != kStatusOk) throw DistributedRunError(message);
+  if (status != kStatusOk) fail(message);
   BroadcastLayout(layout);
   MPI_Bcast(&first_row, 1, MPI_INT64_T, 0, MPI_COMM_WORLD);
   engine.set_layout(layout);
@@ -422,10 +453,10 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
   report.max_rows_per_task = plan.max_rows;
   report.tasks = plan.tasks;
 
-  if (rank == 0) status = RunCoordinator(reader, engine, plan, run, d, maps, report, message);
+  if (rank == 0) status = RunCoordinator(reader, engine, plan, run0, d, maps, report, message);
   else RunWorker(reader, engine, plan);
   BroadcastStatus(status, message);
-  if (status == kStatusFailed) throw DistributedRunError(message);
+  if (status == kStatusFailed) fail(message);
   if (status == kStatusCancelled) return RunStatus::kCancelled;
   if (rank == 0) {
     maps.rows_done = info.ny;
