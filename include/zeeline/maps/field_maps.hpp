@@ -149,7 +149,9 @@ class FieldMapSink {
   /// from what it kept.
   virtual void Begin(long rows_done, FieldMaps& maps) = 0;
   /// Rows [first_row, first_row + block.ny) are finished (block: their maps, nx = the cube's). Rows come
-  /// in any order (the MPI driver), each once per run.
+  /// in any order (the MPI driver), each once per run. ComputeFieldMaps may call Put on a thread of its own
+  /// while it computes the next tile (with more than one thread and no checkpoints), never two at once and
+  /// never at the same time as Begin or Sync.
   virtual void Put(const FieldMaps& block, long first_row) = 0;
   /// Makes every row Put so far survive the end of this process: called before each checkpoint names them.
   virtual void Sync() = 0;
