@@ -469,30 +469,38 @@ void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, Raw
 
 namespace {
 template <class S>
-std::uint32_t GatherFrom(const RawCubeTile& t, const S* data, long pixel, double* out) {
+void GatherFrom(const RawCubeTile& t, const S* data, long pixel, double* out) {
   const long nw = t.n_wavelength;
   const long x = pixel % t.nx, yy = pixel / t.nx;
   const S* base = data + x * t.stride_x + yy * t.stride_y;
   const long sl = t.spectral_reversed ? -t.stride_spectral : t.stride_spectral;
   const long first = t.spectral_reversed ? (nw - 1) * t.stride_spectral : 0;
-  std::uint32_t bad = 0;
   for (int s = 0; s < t.n_stokes; ++s) {
     const S* src = base + s * t.stride_stokes + first;
     double* d = out + s * nw;
-    const double sign = s == t.v_index ? t.v_sign : 1.0;
-    if (sl == 1) {
-      for (long k = 0; k < nw; ++k) d[k] = static_cast<double>(src[k]) * sign;
-    } else {
+    if (s == t.v_index && t.v_sign != 1.0) {
+      const double sign = t.v_sign;
       for (long k = 0; k < nw; ++k) d[k] = static_cast<double>(src[k * sl]) * sign;
+    } else if (sl == 1) {  // x * 1.0 == x: no multiplication for the other parameters
+      for (long k = 0; k < nw; ++k) d[k] = static_cast<double>(src[k]);
+    } else {
+      for (long k = 0; k < nw; ++k) d[k] = static_cast<double>(src[k * sl]);
     }
-    for (long k = 0; k < nw; ++k) bad += !std::isfinite(d[k]);
   }
-  return bad;
 }
 }  // namespace
 
 std::uint32_t RawCubeTile::Gather(long pixel, double* out) const {
-  return as_float ? GatherFrom(*this, data_f.data(), pixel, out) : GatherFrom(*this, data_d.data(), pixel, out);
+  GatherSamples(pixel, out);
+  std::uint32_t bad = 0;
+  const long n = static_cast<long>(n_stokes) * n_wavelength;
+  for (long k = 0; k < n; ++k) bad += !std::isfinite(out[k]);
+  return bad;
+}
+
+void RawCubeTile::GatherSamples(long pixel, double* out) const {
+  if (as_float) GatherFrom(*this, data_f.data(), pixel, out);
+  else GatherFrom(*this, data_d.data(), pixel, out);
 }
 
 template <class T>

@@ -11,18 +11,20 @@ std::string CentreOfGravityOptions::Validate() const {
   return ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
 }
 
-CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
-                                              const CentreOfGravityOptions& o) {
+namespace {
+// Trapezoid weight of sample i of l[0..n), n >= 2.
+double TrapezoidWeight(const double* l, std::size_t n, std::size_t i) {
+  const double left = i > 0 ? l[i] - l[i - 1] : l[1] - l[0];
+  const double right = i + 1 < n ? l[i + 1] - l[i] : l[n - 1] - l[n - 2];
+  return 0.5 * (left + right);
+}
+
+// The estimate over the samples of `win` with weight(i) (computed on the spot or read from a prepared grid).
+template <class Weight>
+CentreOfGravityResult Estimate(const PixelSpectrum& s, const ContinuumEstimate& noise, const CentreOfGravityOptions& o,
+                               const SampleRange win, Weight weight) {
   CentreOfGravityResult r;
-  const std::size_t n = s.n;
-  if (n < 3 || !s.V) return r;
   const double* l = s.wavelength_nm;
-  const SampleRange win = WindowRange(l, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
-  auto weight = [&](std::size_t i) {
-    const double left = i > 0 ? l[i] - l[i - 1] : l[1] - l[0];
-    const double right = i + 1 < n ? l[i + 1] - l[i] : l[n - 1] - l[n - 2];
-    return 0.5 * (left + right);
-  };
   double np = 0.0, dp = 0.0, nm = 0.0, dm = 0.0;
   for (std::size_t i = win.begin; i < win.end; ++i) {
     const double w = weight(i);
@@ -59,6 +61,32 @@ CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const Cont
   r.vlos_err_kms = c_kms * std::sqrt(var_mean) / o.rest_wavelength_nm;
   r.ok = std::isfinite(r.blos_gauss) && std::isfinite(r.vlos_kms);
   return r;
+}
+
+}  // namespace
+
+CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
+                                              const CentreOfGravityOptions& o) {
+  if (s.n < 3 || !s.V) return {};
+  const std::size_t n = s.n;
+  const double* l = s.wavelength_nm;
+  return Estimate(s, noise, o, WindowRange(l, n, o.rest_wavelength_nm, o.window_halfwidth_nm),
+                  [l, n](std::size_t i) { return TrapezoidWeight(l, n, i); });
+}
+
+void CentreOfGravityGrid::Prepare(const double* l, std::size_t n, const CentreOfGravityOptions& o) {
+  weight.assign(n, 0.0);
+  window = SampleRange{};
+  if (n < 3) return;
+  window = WindowRange(l, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
+  for (std::size_t i = 0; i < n; ++i) weight[i] = TrapezoidWeight(l, n, i);
+}
+
+CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
+                                                      const CentreOfGravityOptions& o, const CentreOfGravityGrid& grid) {
+  if (s.n < 3 || !s.V) return {};
+  const double* w = grid.weight.data();
+  return Estimate(s, noise, o, grid.window, [w](std::size_t i) { return w[i]; });
 }
 
 }  // namespace zeeline

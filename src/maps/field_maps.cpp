@@ -109,7 +109,10 @@ void SetVector(PixelOut& out, double blos, double blos_err, double bt, double bt
 
 class PixelProcessor {
  public:
-  PixelProcessor(const FieldMapOptions& o, const SpectralLayout& lay, bool has_qu, bool has_v, const MeInverter* me)
+  // `wavelength_nm[0..n)`: the grid of every pixel this processor sees (the estimators' grid-only work is
+  // done here, once).
+  PixelProcessor(const FieldMapOptions& o, const SpectralLayout& lay, bool has_qu, bool has_v, const MeInverter* me,
+                 const double* wavelength_nm, std::size_t n)
       : o_(o), lay_(lay), has_qu_(has_qu), has_v_(has_v), me_(me) {
     wfa_.rest_wavelength_nm = o.rest_wavelength_nm;
     wfa_.g_eff = o.pattern.g_eff;
@@ -130,6 +133,8 @@ class PixelProcessor {
     regime_.weak_ratio = o.weak_ratio;
     regime_.consistency_sigma = o.consistency_sigma;
     regime_.explain = false;  // the map keeps verdicts, not their wording
+    PrepareWeakFieldGrid(wavelength_nm, n, wfa_, wfa_work_);
+    cog_grid_.Prepare(wavelength_nm, n, cog_);
   }
 
   // `rejected`: QUALITY bits of the data-sanity check (data_sanity.hpp); such a pixel is not inverted.
@@ -147,9 +152,9 @@ class PixelProcessor {
       out.quality = kQualityNoContinuum;
       return;
     }
-    const WeakFieldResult w = WeakFieldEstimate(s, c, wfa_, wfa_work_);
+    const WeakFieldResult w = WeakFieldEstimatePrepared(s, c, wfa_, wfa_work_);
     CentreOfGravityResult g;
-    if (has_v_) g = CentreOfGravityEstimate(s, c, cog_);
+    if (has_v_) g = CentreOfGravityEstimatePrepared(s, c, cog_, cog_grid_);
 
     MapMethod m = o_.method;
     bool out_of_range = false;
@@ -344,6 +349,7 @@ class PixelProcessor {
   MeWorkspace me_work_;
   WeakFieldOptions wfa_;
   CentreOfGravityOptions cog_;
+  CentreOfGravityGrid cog_grid_;
   SplittingOptions split_;
   WeakFieldWorkspace wfa_work_;
   WeakFieldRegimeOptions regime_;
@@ -702,7 +708,8 @@ struct FromRawTile {
   const RawCubeTile& tile;
   long n_pixels() const { return tile.n_pixels(); }
   const double* Spectra(long p, std::vector<double>& buffer, bool& nonfinite) const {
-    nonfinite = tile.Gather(p, buffer.data()) != 0;
+    tile.GatherSamples(p, buffer.data());  // CheckPixelSanity finds the NaN/Inf samples
+    nonfinite = false;
     return buffer.data();
   }
 };
@@ -735,7 +742,7 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
   const DataSanityLimits sanity = MakeSanityLimits(info_.bitpix, layout_.median_level, o_.noise_rel);
 #pragma omp parallel num_threads(threads)
   {
-    PixelProcessor proc(o_, layout_, has_qu_, has_v_, inverter_.get());
+    PixelProcessor proc(o_, layout_, has_qu_, has_v_, inverter_.get(), info_.wavelength_nm.data(), nw);
     PixelOut out;
     std::vector<double> buffer(nw * static_cast<std::size_t>(info_.n_stokes()));  // one pixel's spectra
     std::int64_t local[5] = {0, 0, 0, 0, 0};

@@ -41,27 +41,66 @@ std::string WeakFieldOptions::Validate() const {
   return m.str();
 }
 
-WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
-                                  const WeakFieldOptions& o, WeakFieldWorkspace& work) {
-  WeakFieldResult r;
-  const std::size_t n = s.n;
-  if (n < 5) return r;
-  // Derivatives only over the window and two samples either side (what the stencils need).
-  const SampleRange win = WindowRange(s.wavelength_nm, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
-  if (win.size() < 3) return r;
-  const std::size_t a = win.begin >= 2 ? win.begin - 2 : 0, b = std::min(n, win.end + 2);
+void PrepareWeakFieldGrid(const double* wavelength_nm, std::size_t n, const WeakFieldOptions& o,
+                          WeakFieldWorkspace& work) {
+  WeakFieldGrid& g = work.grid;
+  g.wavelength_nm = wavelength_nm;
+  g.n = n;
+  g.usable = false;
   work.d1.resize(n);
   work.d2.resize(n);
-  FirstDerivative(s.wavelength_nm + a, s.I + a, b - a, work.d1.data() + a);
-  const double C = LorentzUnit_nm(o.rest_wavelength_nm, 1.0);  // nm per gauss
-  const double h = (s.wavelength_nm[n - 1] - s.wavelength_nm[0]) / static_cast<double>(n - 1);
+  work.x.resize(n);
+  work.xn.resize(n);
+  if (n < 5) return;
+  // Derivatives only over the window and two samples either side (what the stencils need).
+  g.window = WindowRange(wavelength_nm, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
+  if (g.window.size() < 3) return;
+  g.span_begin = g.window.begin >= 2 ? g.window.begin - 2 : 0;
+  g.span_end = std::min(n, g.window.end + 2);
+  g.stencil.Prepare(wavelength_nm + g.span_begin, g.span_end - g.span_begin);
+  g.lorentz_nm_per_gauss = LorentzUnit_nm(o.rest_wavelength_nm, 1.0);
+  g.step_nm = (wavelength_nm[n - 1] - wavelength_nm[0]) / static_cast<double>(n - 1);
+  g.usable = true;
+}
 
-  // Observed line centre: centroid of |Ic - I| in the window.
-  double wsum = 0.0, lsum = 0.0;
-  for (std::size_t i = win.begin; i < win.end; ++i) {
-    const double depth = std::fabs(noise.continuum - s.I[i]);
-    wsum += depth;
-    lsum += depth * s.wavelength_nm[i];
+WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
+                                  const WeakFieldOptions& o, WeakFieldWorkspace& work) {
+  PrepareWeakFieldGrid(s.wavelength_nm, s.n, o, work);
+  return WeakFieldEstimatePrepared(s, noise, o, work);
+}
+
+WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
+                                          const WeakFieldOptions& o, WeakFieldWorkspace& work) {
+  WeakFieldResult r;
+  const WeakFieldGrid& grid = work.grid;
+  if (!grid.usable) return r;
+  const SampleRange win = grid.window;
+  const std::size_t a = grid.span_begin;
+  double* const d1 = work.d1.data();
+  double* const d2 = work.d2.data();
+  const double* const I = s.I;
+  const double* const l = s.wavelength_nm;
+  grid.stencil.First(I + a, d1 + a);
+  const double C = grid.lorentz_nm_per_gauss;  // nm per gauss
+  const double h = grid.step_nm;
+
+  // One pass over the window: the observed line centre (centroid of |Ic - I|) and the sums of the B_LOS fit.
+  double wsum = 0.0, lsum = 0.0, sdd = 0.0, svd = 0.0;
+  if (s.V) {
+    const double* const V = s.V;
+    for (std::size_t i = win.begin; i < win.end; ++i) {
+      const double depth = std::fabs(noise.continuum - I[i]);
+      wsum += depth;
+      lsum += depth * l[i];
+      sdd += d1[i] * d1[i];
+      svd += V[i] * d1[i];
+    }
+  } else {
+    for (std::size_t i = win.begin; i < win.end; ++i) {
+      const double depth = std::fabs(noise.continuum - I[i]);
+      wsum += depth;
+      lsum += depth * l[i];
+    }
   }
   r.line_centre_nm = wsum > 0.0 ? lsum / wsum : o.rest_wavelength_nm;
 
@@ -70,13 +109,7 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
 
   // ---- B_LOS from V
   if (s.V) {
-    double sdd = 0.0, svd = 0.0;
-    std::size_t used = 0;
-    for (std::size_t i = win.begin; i < win.end; ++i) {
-      sdd += work.d1[i] * work.d1[i];
-      svd += s.V[i] * work.d1[i];
-      ++used;
-    }
+    const std::size_t used = win.size();
     if (used >= 3 && sdd > 0.0) {
       const double k = C * o.g_eff;
       r.blos_gauss = -svd / (k * sdd);
@@ -86,8 +119,9 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
       r.has_blos = true;
       if (var_sample > 0.0) {
         double chi2 = 0.0;
+        const double kb = k * r.blos_gauss;
         for (std::size_t i = win.begin; i < win.end; ++i) {
-          const double res = s.V[i] + k * r.blos_gauss * work.d1[i];
+          const double res = s.V[i] + kb * d1[i];
           chi2 += res * res;
         }
         r.dof_v = static_cast<int>(used) - 1;
@@ -98,7 +132,7 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
 
   // ---- B_T and azimuth from Q, U
   if (s.Q && s.U && std::fabs(o.G) > 1e-9) {
-    SecondDerivative(s.wavelength_nm + a, s.I + a, b - a, work.d2.data() + a);
+    grid.stencil.Second(I + a, d2 + a);
     const double core = o.core_halfwidth_nm > 0.0 ? o.core_halfwidth_nm : 1e300;
     const double wing_start =
         o.wing_start_nm > 0.0 ? o.wing_start_nm : (r.core.ok ? 4.8 * r.core.doppler_width_nm : 1e300);
@@ -110,53 +144,73 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
     const double gain1 = NoiseGainFirst(h), gain2 = NoiseGainSecond(h);
     double sxx = 0.0, sqx = 0.0, sux = 0.0, sxn = 0.0;  // sxn: sum of regressor noise variances
     std::size_t used = 0;
-    // Regressor x (Q = x a_Q) and its noise sigma_x for sample i; false when the sample is not used.
-    auto regressor = [&](std::size_t i, double& x, double& xn) {
-      const double dl = s.wavelength_nm[i] - r.line_centre_nm;
-      const bool in_core = std::fabs(dl) <= core, in_wing = std::fabs(dl) >= wing_start;
-      auto second = [&] {
-        x = -k2 * work.d2[i];
-        xn = k2 * noise.noise_I * gain2;
-      };
-      auto wing = [&] {
-        x = 3.0 * k2 * work.d1[i] / dl;
-        xn = 3.0 * k2 * noise.noise_I * gain1 / std::fabs(dl);
-      };
-      switch (o.transverse) {
-        case TransverseRegion::kCorrected:
-          if (correct) {
-            const double t = s.I[i] - s0;
-            x = -k2 * (work.d2[i] - 2.0 * work.d1[i] * work.d1[i] / t);
-            const double g1 = 4.0 * std::fabs(work.d1[i]) / t * gain1;  // finite, moderate: no hypot needed
-            xn = k2 * noise.noise_I * std::sqrt(gain2 * gain2 + g1 * g1);
-          } else {
-            second();
-          }
-          return true;
-        case TransverseRegion::kWholeLine: second(); return true;
-        case TransverseRegion::kCore: if (!in_core) return false; second(); return true;
-        case TransverseRegion::kWings: if (!in_wing) return false; wing(); return true;
-        case TransverseRegion::kCoreAndWings:
-          if (in_wing) wing();
-          else if (in_core) second();
-          else return false;
-          return true;
+    double* const xs = work.x.data();
+    double* const xns = work.xn.data();
+    const double* const Q = s.Q;
+    const double* const U = s.U;
+    if (o.transverse == TransverseRegion::kCorrected || o.transverse == TransverseRegion::kWholeLine) {
+      // Every window sample is used: the regressor x (Q = x a_Q) and its noise sigma_x in a loop without
+      // branches or reductions (vectorised), then the sums.
+      if (correct) {
+        const double kn = k2 * noise.noise_I, g2 = gain2 * gain2;
+        for (std::size_t i = win.begin; i < win.end; ++i) {
+          const double t = I[i] - s0;
+          xs[i] = -k2 * (d2[i] - 2.0 * d1[i] * d1[i] / t);
+          const double g1 = 4.0 * std::fabs(d1[i]) / t * gain1;  // finite, moderate: no hypot needed
+          xns[i] = kn * std::sqrt(g2 + g1 * g1);
+        }
+      } else {
+        const double xn = k2 * noise.noise_I * gain2;
+        for (std::size_t i = win.begin; i < win.end; ++i) {
+          xs[i] = -k2 * d2[i];
+          xns[i] = xn;
+        }
       }
-      return false;
-    };
-    work.x.resize(n);
-    for (std::size_t i = win.begin; i < win.end; ++i) {
-      double x = 0.0, xn = 0.0;
-      if (!regressor(i, x, xn)) {
-        work.x[i] = std::nan("");
-        continue;
+      for (std::size_t i = win.begin; i < win.end; ++i) {
+        const double x = xs[i], xn = xns[i];
+        sxx += x * x;
+        sqx += Q[i] * x;
+        sux += U[i] * x;
+        sxn += xn * xn;
       }
-      work.x[i] = x;
-      sxx += x * x;
-      sqx += s.Q[i] * x;
-      sux += s.U[i] * x;
-      sxn += xn * xn;
-      ++used;
+      used = win.size();
+    } else {
+      // Regressor x and its noise sigma_x for sample i; false when the sample is not used.
+      auto regressor = [&](std::size_t i, double& x, double& xn) {
+        const double dl = l[i] - r.line_centre_nm;
+        const bool in_core = std::fabs(dl) <= core, in_wing = std::fabs(dl) >= wing_start;
+        auto second = [&] {
+          x = -k2 * d2[i];
+          xn = k2 * noise.noise_I * gain2;
+        };
+        auto wing = [&] {
+          x = 3.0 * k2 * d1[i] / dl;
+          xn = 3.0 * k2 * noise.noise_I * gain1 / std::fabs(dl);
+        };
+        switch (o.transverse) {
+          case TransverseRegion::kCore: if (!in_core) return false; second(); return true;
+          case TransverseRegion::kWings: if (!in_wing) return false; wing(); return true;
+          case TransverseRegion::kCoreAndWings:
+            if (in_wing) wing();
+            else if (in_core) second();
+            else return false;
+            return true;
+          default: return false;  // kCorrected, kWholeLine: above
+        }
+      };
+      for (std::size_t i = win.begin; i < win.end; ++i) {
+        double x = 0.0, xn = 0.0;
+        if (!regressor(i, x, xn)) {
+          xs[i] = std::nan("");
+          continue;
+        }
+        xs[i] = x;
+        sxx += x * x;
+        sqx += Q[i] * x;
+        sux += U[i] * x;
+        sxn += xn * xn;
+        ++used;
+      }
     }
     if (used >= 3 && sxx > 0.0) {
       const double aq = sqx / sxx, au = sux / sxx;
@@ -183,13 +237,16 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
       const double var_q = noise.noise_Q * noise.noise_Q + aq * aq * mean_xn2;
       const double var_u = noise.noise_U * noise.noise_U + au * au * mean_xn2;
       if (var_q > 0.0 && var_u > 0.0 && used > 2) {
-        double chi2 = 0.0;
+        // Per-sample terms first (a loop without reductions, vectorised), then their sum in sample order.
+        double* const term = xns;
         for (std::size_t i = win.begin; i < win.end; ++i) {
-          const double x = work.x[i];
-          if (std::isnan(x)) continue;
-          const double rq = s.Q[i] - x * aq, ru = s.U[i] - x * au;
-          chi2 += rq * rq / var_q + ru * ru / var_u;
+          const double x = xs[i];
+          const double rq = Q[i] - x * aq, ru = U[i] - x * au;
+          term[i] = rq * rq / var_q + ru * ru / var_u;
         }
+        double chi2 = 0.0;
+        for (std::size_t i = win.begin; i < win.end; ++i)
+          if (!std::isnan(xs[i])) chi2 += term[i];
         r.dof_qu = static_cast<int>(2 * used) - 2;
         r.chi2_qu = chi2 / r.dof_qu;
       }

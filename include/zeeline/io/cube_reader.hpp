@@ -143,6 +143,8 @@ struct RawCubeTile {
   /// out[s * n_wavelength + w] (wavelengths increasing, V times v_sign) for pixel p = (y - y_begin) * nx + x,
   /// the same values ReadRows gives; returns the number of NaN/Inf samples of the pixel.
   std::uint32_t Gather(long pixel, double* out) const;
+  /// Gather without counting NaN/Inf (for a caller whose own checks find them, e.g. data_sanity.hpp).
+  void GatherSamples(long pixel, double* out) const;
 };
 
 class CubeReader {

@@ -13,6 +13,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 #include "zeeline/maps/pixel_spectrum.hpp"
 
@@ -35,5 +36,17 @@ struct CentreOfGravityResult {
 
 CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                               const CentreOfGravityOptions& options);
+
+/// What the estimate takes from the wavelength grid alone: the window and the trapezoid weights, worked out
+/// once for many pixels on one grid. CentreOfGravityEstimatePrepared(s, noise, options, grid) is bit for bit
+/// CentreOfGravityEstimate(s, noise, options) for a pixel on that grid.
+struct CentreOfGravityGrid {
+  SampleRange window;
+  std::vector<double> weight;  ///< trapezoid weight w_i per sample
+  void Prepare(const double* wavelength_nm, std::size_t n, const CentreOfGravityOptions& options);
+};
+CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
+                                                      const CentreOfGravityOptions& options,
+                                                      const CentreOfGravityGrid& grid);
 
 }  // namespace zeeline

@@ -11,9 +11,15 @@
 // in I is not amplified much; the weak-field error bars include it (NoiseGainFirst).
 // We use finite differences rather than an FFT derivative because spectra are short, not periodic and
 // often irregularly sampled; an FFT derivative would need apodisation that biases the line wings.
+//
+// DerivativeStencil holds the per-sample weights of both derivatives for one wavelength grid, worked out
+// once (a map applies them to every pixel of a cube on the same grid); applying it gives bit for bit what
+// FirstDerivative / SecondDerivative give, which are built on the same per-sample weights, and its inner loop
+// over a uniform grid is a plain loop the compiler vectorises.
 #pragma once
 
 #include <cstddef>
+#include <vector>
 
 namespace zeeline {
 
@@ -21,6 +27,34 @@ namespace zeeline {
 void FirstDerivative(const double* x, const double* f, std::size_t n, double* out);
 /// d^2 f / d lambda^2 into `out` (length n >= 3).
 void SecondDerivative(const double* x, const double* f, std::size_t n, double* out);
+
+/// The weights of both derivatives at every sample of one grid x[0..n) (n >= 3), for many spectra f on it.
+class DerivativeStencil {
+ public:
+  /// How one sample's derivative is formed from f (the formulas of the file comment).
+  struct Point {
+    int kind = 0;                 ///< 0: five-point, 1: three-point, 2: end (polynomial through 3 samples)
+    std::size_t j0 = 0;           ///< first of the three samples (kinds 1 and 2)
+    double c1[3] = {0, 0, 0};     ///< first derivative: weights / numerators
+    double d1[3] = {1, 1, 1};     ///< first derivative: denominators (end samples)
+    double c2[3] = {1, 1, 1};     ///< second derivative: denominators
+  };
+
+  DerivativeStencil() = default;
+  DerivativeStencil(const double* x, std::size_t n) { Prepare(x, n); }
+  /// Works out the weights for x[0..n) (reuses the buffers: no allocation once they are large enough).
+  void Prepare(const double* x, std::size_t n);
+  std::size_t size() const { return n_; }
+  /// d f / d lambda and d^2 f / d lambda^2 of f[0..n) into out[0..n).
+  void First(const double* f, double* out) const;
+  void Second(const double* f, double* out) const;
+
+ private:
+  std::size_t n_ = 0;
+  std::size_t five_begin_ = 0, five_end_ = 0;  ///< [begin, end): every sample five-point (the fast loop)
+  std::vector<double> den1_, den2_;            ///< five-point denominators 12 h and 12 h^2 per sample
+  std::vector<Point> points_;                  ///< every sample (those outside the fast loop are used)
+};
 
 /// White-noise gain of FirstDerivative at an interior sample of a uniform grid of step h: sigma_f' / sigma_f.
 inline double NoiseGainFirst(double h) { return 0.9501461875825213 / h; }  // sqrt(130)/12

@@ -55,6 +55,7 @@
 
 #include "zeeline/maps/line_core.hpp"
 #include "zeeline/maps/pixel_spectrum.hpp"
+#include "zeeline/maps/spectral_derivative.hpp"
 
 namespace zeeline {
 
@@ -91,14 +92,39 @@ struct WeakFieldResult {
   bool ok = false;              ///< false: too few samples or no line signal in the window
 };
 
+/// What the estimate takes from the wavelength grid and the options alone: the fit window, the span the
+/// derivative stencils need (the window and two samples either side) and their weights, the Lorentz unit and
+/// the mean step. Worked out once per grid (PrepareWeakFieldGrid), not once per pixel.
+struct WeakFieldGrid {
+  const double* wavelength_nm = nullptr;
+  std::size_t n = 0;
+  SampleRange window;            ///< samples of the fit window
+  std::size_t span_begin = 0, span_end = 0;  ///< [begin, end): where the derivatives are formed
+  DerivativeStencil stencil;     ///< over wavelength_nm[span_begin .. span_end)
+  double lorentz_nm_per_gauss = 0.0;
+  double step_nm = 0.0;          ///< (l[n-1] - l[0]) / (n - 1): the step of the noise gains
+  bool usable = false;           ///< n >= 5 and >= 3 samples in the window
+};
+
 /// Scratch buffers reused across pixels (one per thread); no allocation per pixel after the first.
 struct WeakFieldWorkspace {
   std::vector<double> d1, d2;
-  std::vector<double> x;  ///< transverse regressor per sample (NaN where the region leaves it out)
+  std::vector<double> x;   ///< transverse regressor per sample (NaN where the region leaves it out)
+  std::vector<double> xn;  ///< its noise per sample
+  WeakFieldGrid grid;      ///< of the last PrepareWeakFieldGrid
 };
 
 /// Weak-field estimate for one pixel; `noise` gives the per-Stokes noise (absolute units).
+/// Prepares the grid for `s` each call: PrepareWeakFieldGrid once plus WeakFieldEstimatePrepared per pixel is
+/// the same computation (bit for bit) for many pixels on one grid.
 WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                   const WeakFieldOptions& options, WeakFieldWorkspace& work);
+
+/// Works out work.grid for spectra on wavelength_nm[0..n) and these options.
+void PrepareWeakFieldGrid(const double* wavelength_nm, std::size_t n, const WeakFieldOptions& options,
+                          WeakFieldWorkspace& work);
+/// The estimate for a pixel on the grid of the last PrepareWeakFieldGrid (same options).
+WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
+                                          const WeakFieldOptions& options, WeakFieldWorkspace& work);
 
 }  // namespace zeeline
