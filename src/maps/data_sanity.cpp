@@ -48,8 +48,8 @@ namespace {
 // Bits of one spectrum's range test; `limit` = min(abs_limit, level_ceiling).
 std::uint32_t RangeBits(const double* f, std::size_t n, double limit) {
   if (!f) return 0;
-  std::size_t outside = 0;  // branch-free count first (NaN fails the comparison): the common case is 0
-  for (std::size_t k = 0; k < n; ++k) outside += !(std::fabs(f[k]) <= limit);
+  unsigned outside = 0;  // branch-free test first (NaN fails the comparison): the common case is none
+  for (std::size_t k = 0; k < n; ++k) outside |= static_cast<unsigned>(!(std::fabs(f[k]) <= limit));
   if (outside == 0) return 0;
   std::uint32_t bits = 0;
   for (std::size_t k = 0; k < n; ++k) {
@@ -79,11 +79,16 @@ std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::si
   // The largest |X| - I over Q, U, V; real data stay far below zero, so the noise is only estimated for a
   // pixel that comes close (the common case costs one pass).
   const double rounding = 1e-6 * ic;
+  // Four running maxima side by side (every sample is finite here, so the order of a maximum does not matter).
   auto max_excess = [&](const double* x) {
-    double m = -HUGE_VAL;
-    if (x)
-      for (std::size_t k = 0; k < s.n; ++k) m = std::max(m, std::fabs(x[k]) - s.I[k]);
-    return m;
+    double m[4] = {-HUGE_VAL, -HUGE_VAL, -HUGE_VAL, -HUGE_VAL};
+    if (!x) return m[0];
+    const double* I = s.I;
+    std::size_t k = 0;
+    for (; k + 4 <= s.n; k += 4)
+      for (int j = 0; j < 4; ++j) m[j] = std::max(m[j], std::fabs(x[k + j]) - I[k + j]);
+    for (; k < s.n; ++k) m[0] = std::max(m[0], std::fabs(x[k]) - I[k]);
+    return std::max(std::max(m[0], m[1]), std::max(m[2], m[3]));
   };
   const double eq = max_excess(s.Q), eu = max_excess(s.U), ev = max_excess(s.V);
   if (std::max({eq, eu, ev}) <= rounding) return 0;

@@ -55,26 +55,39 @@ double Mean(const double* f, const std::vector<std::size_t>& idx) {
 // White-noise sigma from second differences of consecutive samples, sigma^2 = <(f[i-1] - 2f[i] + f[i+1])^2>/6,
 // which removes the mean and any linear trend (e.g. the far wing of a damped line) from the estimate.
 // Falls back to the standard deviation about the mean when there are fewer than 3 consecutive triples.
-double NoiseSigma(const double* f, const std::vector<std::size_t>& idx) {
-  double s2 = 0.0;
-  std::size_t k = 0;
+// All spectra of `f` (I first and never null; null Q, U, V skipped) in one walk over the samples: their sums are independent, so they
+// run side by side instead of one after the other (each sum still adds in sample order).
+void NoiseSigmas(const double* const f[4], const std::vector<std::size_t>& idx, double sigma[4]) {
+  double s2[4] = {0.0, 0.0, 0.0, 0.0};
+  std::size_t k[4] = {0, 0, 0, 0};
+  // f[0] (Stokes I) is always present; a null entry computes on it and its result is dropped.
+  const double* const g[4] = {f[0], f[1] ? f[1] : f[0], f[2] ? f[2] : f[0], f[3] ? f[3] : f[0]};
   for (std::size_t j = 1; j + 1 < idx.size(); ++j) {
-    if (idx[j - 1] + 1 != idx[j] || idx[j] + 1 != idx[j + 1]) continue;
-    const double d = f[idx[j - 1]] - 2.0 * f[idx[j]] + f[idx[j + 1]];
-    if (!std::isfinite(d)) continue;
-    s2 += d * d;
-    ++k;
+    const std::size_t a = idx[j - 1], b = idx[j], c = idx[j + 1];
+    if (a + 1 != b || b + 1 != c) continue;
+    for (int p = 0; p < 4; ++p) {
+      const double d = g[p][a] - 2.0 * g[p][b] + g[p][c];
+      if (!std::isfinite(d)) continue;
+      s2[p] += d * d;
+      ++k[p];
+    }
   }
-  if (k >= 3) return std::sqrt(s2 / (6.0 * static_cast<double>(k)));
-  const double m = Mean(f, idx);
-  double v = 0.0;
-  k = 0;
-  for (std::size_t i : idx) {
-    if (!std::isfinite(f[i])) continue;
-    v += (f[i] - m) * (f[i] - m);
-    ++k;
+  for (int p = 0; p < 4; ++p) {
+    if (!f[p]) continue;
+    if (k[p] >= 3) {
+      sigma[p] = std::sqrt(s2[p] / (6.0 * static_cast<double>(k[p])));
+      continue;
+    }
+    const double m = Mean(f[p], idx);
+    double v = 0.0;
+    std::size_t n = 0;
+    for (std::size_t i : idx) {
+      if (!std::isfinite(f[p][i])) continue;
+      v += (f[p][i] - m) * (f[p][i] - m);
+      ++n;
+    }
+    sigma[p] = n > 1 ? std::sqrt(v / static_cast<double>(n - 1)) : std::nan("");
   }
-  return k > 1 ? std::sqrt(v / static_cast<double>(k - 1)) : std::nan("");
 }
 }  // namespace
 
@@ -83,13 +96,16 @@ ContinuumEstimate EstimateContinuum(const PixelSpectrum& s, const std::vector<st
   ContinuumEstimate c;
   c.samples = samples.size();
   c.continuum = Mean(s.I, samples);
-  c.noise_I = NoiseSigma(s.I, samples);
-  if (s.Q) c.noise_Q = NoiseSigma(s.Q, samples);
-  if (s.U) c.noise_U = NoiseSigma(s.U, samples);
-  if (s.V) c.noise_V = NoiseSigma(s.V, samples);
+  const double* const f[4] = {s.I, s.Q, s.U, s.V};
+  double sigma[4] = {0.0, 0.0, 0.0, 0.0};
+  NoiseSigmas(f, samples, sigma);
+  c.noise_I = sigma[0];
+  c.noise_Q = sigma[1];
+  c.noise_U = sigma[2];
+  c.noise_V = sigma[3];
   if (given_noise_rel > 0.0) {
-    const double sigma = given_noise_rel * std::fabs(c.continuum);
-    c.noise_I = c.noise_Q = c.noise_U = c.noise_V = sigma;
+    const double sigma_rel = given_noise_rel * std::fabs(c.continuum);
+    c.noise_I = c.noise_Q = c.noise_U = c.noise_V = sigma_rel;
     c.noise_dof = HUGE_VAL;
   } else {
     c.noise_dof = 0.514 * static_cast<double>(c.samples);
