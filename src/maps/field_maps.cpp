@@ -694,22 +694,19 @@ void FieldMapEngine::InitSinkMaps(FieldMaps& maps) const {
 }
 
 namespace {
-// Where a pixel's spectra come from: a pixel-major CubeTile (pointers into it), or a file-order RawCubeTile
-// (gathered into the worker's buffer, FieldMapEngine::Compute).
+// Where a block of pixels' spectra come from: a pixel-major CubeTile (a pointer into it), or a file-order
+// RawCubeTile (gathered into the worker's buffer, FieldMapEngine::Compute). Either way pixel first + j's
+// spectra start at the returned pointer + j * n_stokes * n_wavelength.
 struct FromCubeTile {
   const CubeTile& tile;
   long n_pixels() const { return tile.n_pixels(); }
-  const double* Spectra(long p, std::vector<double>&, bool& nonfinite) const {
-    nonfinite = tile.nonfinite[static_cast<std::size_t>(p)] != 0;
-    return tile.Spectrum(p, 0);
-  }
+  const double* Spectra(long first, long, std::vector<double>&) const { return tile.Spectrum(first, 0); }
 };
 struct FromRawTile {
   const RawCubeTile& tile;
   long n_pixels() const { return tile.n_pixels(); }
-  const double* Spectra(long p, std::vector<double>& buffer, bool& nonfinite) const {
-    tile.GatherSamples(p, buffer.data());  // CheckPixelSanity finds the NaN/Inf samples
-    nonfinite = false;
+  const double* Spectra(long first, long count, std::vector<double>& buffer) const {
+    tile.GatherBlock(first, count, buffer.data());  // CheckPixelSanity finds the NaN/Inf samples
     return buffer.data();
   }
 };
@@ -732,6 +729,9 @@ void FieldMapEngine::CheckRows(long y_begin, long y_count, long nx, const FieldM
                       std::to_string(y_begin + y_count - 1) + " lie outside the maps");
 }
 
+// Pixels per gather (8 pixels' IQUV spectra of 60 samples: 15 KiB, within L1).
+constexpr long kPixelBlock = 8;
+
 template <class Source>
 void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& maps) const {
   const std::size_t nw = info_.wavelength_nm.size();
@@ -744,14 +744,16 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
   {
     PixelProcessor proc(o_, layout_, has_qu_, has_v_, inverter_.get(), info_.wavelength_nm.data(), nw);
     PixelOut out;
-    std::vector<double> buffer(nw * static_cast<std::size_t>(info_.n_stokes()));  // one pixel's spectra
+    const std::size_t record = nw * static_cast<std::size_t>(info_.n_stokes());
+    std::vector<double> buffer(record * static_cast<std::size_t>(kPixelBlock));  // a block of pixels' spectra
     std::int64_t local[5] = {0, 0, 0, 0, 0};
     std::int64_t local_iterations = 0;
-#pragma omp for schedule(dynamic, 16)
-    for (long p = 0; p < npix; ++p) {
-      bool nonfinite = false;  // CheckPixelSanity below finds these samples too (and more)
-      const double* spectra = source.Spectra(p, buffer, nonfinite);  // [stokes][wavelength]
-      (void)nonfinite;
+#pragma omp for schedule(dynamic, 8)
+    for (long b = 0; b < npix; b += kPixelBlock) {
+    const long count = std::min(kPixelBlock, npix - b);
+    const double* block = source.Spectra(b, count, buffer);
+    for (long p = b; p < b + count; ++p) {
+      const double* spectra = block + static_cast<std::size_t>(p - b) * record;  // [stokes][wavelength]
       PixelSpectrum s;
       s.wavelength_nm = info_.wavelength_nm.data();
       s.n = nw;
@@ -766,6 +768,7 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
       maps.quality[g] = out.quality;
       if (out.method >= 0 && out.method < 5) ++local[out.method];
       local_iterations += out.me_iterations;
+    }
     }
 #pragma omp critical
     {

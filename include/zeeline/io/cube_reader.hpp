@@ -145,6 +145,9 @@ struct RawCubeTile {
   std::uint32_t Gather(long pixel, double* out) const;
   /// Gather without counting NaN/Inf (for a caller whose own checks find them, e.g. data_sanity.hpp).
   void GatherSamples(long pixel, double* out) const;
+  /// GatherSamples of pixels first_pixel .. first_pixel + count - 1, pixel j at out + j * n_stokes * n_wavelength;
+  /// the same values, read plane by plane (fewer cache lines and pages per pixel when the spectral axis is slow).
+  void GatherBlock(long first_pixel, long count, double* out) const;
 };
 
 class CubeReader {
