@@ -48,9 +48,11 @@ namespace {
 // Bits of one spectrum's range test; `limit` = min(abs_limit, level_ceiling).
 std::uint32_t RangeBits(const double* f, std::size_t n, double limit) {
   if (!f) return 0;
-  unsigned outside = 0;  // branch-free test first (NaN fails the comparison): the common case is none
-  for (std::size_t k = 0; k < n; ++k) outside |= static_cast<unsigned>(!(std::fabs(f[k]) <= limit));
-  if (outside == 0) return 0;
+  // Branch-free test first (NaN fails the comparison): the common case is none. Written as a select of doubles,
+  // the form the compiler vectorises.
+  double outside = 0.0;
+  for (std::size_t k = 0; k < n; ++k) outside = std::fabs(f[k]) <= limit ? outside : 1.0;
+  if (outside == 0.0) return 0;
   std::uint32_t bits = 0;
   for (std::size_t k = 0; k < n; ++k) {
     const double a = std::fabs(f[k]);

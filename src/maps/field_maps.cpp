@@ -134,7 +134,7 @@ class PixelProcessor {
     regime_.consistency_sigma = o.consistency_sigma;
     regime_.explain = false;  // the map keeps verdicts, not their wording
     PrepareWeakFieldGrid(wavelength_nm, n, wfa_, wfa_work_);
-    cog_grid_.Prepare(wavelength_nm, n, cog_);
+    cog_work_.Prepare(wavelength_nm, n, cog_);
   }
 
   // `rejected`: QUALITY bits of the data-sanity check (data_sanity.hpp); such a pixel is not inverted.
@@ -154,7 +154,7 @@ class PixelProcessor {
     }
     const WeakFieldResult w = WeakFieldEstimatePrepared(s, c, wfa_, wfa_work_);
     CentreOfGravityResult g;
-    if (has_v_) g = CentreOfGravityEstimatePrepared(s, c, cog_, cog_grid_);
+    if (has_v_) g = CentreOfGravityEstimatePrepared(s, c, cog_, cog_work_);
 
     MapMethod m = o_.method;
     bool out_of_range = false;
@@ -349,7 +349,7 @@ class PixelProcessor {
   MeWorkspace me_work_;
   WeakFieldOptions wfa_;
   CentreOfGravityOptions cog_;
-  CentreOfGravityGrid cog_grid_;
+  CentreOfGravityWorkspace cog_work_;
   SplittingOptions split_;
   WeakFieldWorkspace wfa_work_;
   WeakFieldRegimeOptions regime_;

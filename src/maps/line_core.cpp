@@ -34,9 +34,11 @@ double SaturationFromCoreShape(double ratio) {
   // R'(u) = (1/(2 + u) - R(u)) / (1 + u), kept inside the bracket (a bisection step whenever Newton would
   // leave it). Full precision in ~3 evaluations where plain bisection needs ~60 (this runs once per pixel).
   int a = 0, b = kGrid;  // r[a] > ratio >= r[b]
-  while (b - a > 1) {
+  while (b - a > 1) {  // 8 halvings; selects rather than branches (the outcome is unpredictable)
     const int m = (a + b) / 2;
-    (t.r[m] > ratio ? a : b) = m;
+    const bool above = t.r[m] > ratio;
+    a = above ? m : a;
+    b = above ? b : m;
   }
   double lo = t.u[a], hi = t.u[b];
   double u = lo + (hi - lo) * (t.r[a] - ratio) / (t.r[a] - t.r[b]);

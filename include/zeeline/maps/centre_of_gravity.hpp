@@ -37,16 +37,18 @@ struct CentreOfGravityResult {
 CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                               const CentreOfGravityOptions& options);
 
-/// What the estimate takes from the wavelength grid alone: the window and the trapezoid weights, worked out
-/// once for many pixels on one grid. CentreOfGravityEstimatePrepared(s, noise, options, grid) is bit for bit
-/// CentreOfGravityEstimate(s, noise, options) for a pixel on that grid.
-struct CentreOfGravityGrid {
+/// What the estimate takes from the wavelength grid alone (the window and the trapezoid weights), worked out
+/// once for many pixels on one grid, and scratch for the error propagation; one per thread.
+/// CentreOfGravityEstimatePrepared(s, noise, options, work) is bit for bit CentreOfGravityEstimate(s, noise,
+/// options) for a pixel on the grid of the last Prepare (same options); the latter prepares a workspace per call.
+struct CentreOfGravityWorkspace {
   SampleRange window;
-  std::vector<double> weight;  ///< trapezoid weight w_i per sample
+  std::vector<double> weight;                ///< trapezoid weight w_i per sample
+  std::vector<double> var_diff, var_mean;    ///< per-sample variance terms (scratch)
   void Prepare(const double* wavelength_nm, std::size_t n, const CentreOfGravityOptions& options);
 };
 CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                                       const CentreOfGravityOptions& options,
-                                                      const CentreOfGravityGrid& grid);
+                                                      CentreOfGravityWorkspace& work);
 
 }  // namespace zeeline
