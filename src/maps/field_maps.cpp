@@ -750,25 +750,25 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
     std::int64_t local_iterations = 0;
 #pragma omp for schedule(dynamic, 8)
     for (long b = 0; b < npix; b += kPixelBlock) {
-    const long count = std::min(kPixelBlock, npix - b);
-    const double* block = source.Spectra(b, count, buffer);
-    for (long p = b; p < b + count; ++p) {
-      const double* spectra = block + static_cast<std::size_t>(p - b) * record;  // [stokes][wavelength]
-      PixelSpectrum s;
-      s.wavelength_nm = info_.wavelength_nm.data();
-      s.n = nw;
-      s.I = spectra + static_cast<std::size_t>(si_) * nw;
-      s.Q = has_qu_ ? spectra + static_cast<std::size_t>(sq_) * nw : nullptr;
-      s.U = has_qu_ ? spectra + static_cast<std::size_t>(su_) * nw : nullptr;
-      s.V = has_v_ ? spectra + static_cast<std::size_t>(sv_) * nw : nullptr;
-      proc.Process(s, CheckPixelSanity(s, layout_.continuum, sanity), out);
-      const std::size_t g = static_cast<std::size_t>(y0 * info_.nx + p);
-      for (int k = 0; k < kSlotCount; ++k) maps.slots[static_cast<std::size_t>(k)][g] = out.v[k];
-      maps.method[g] = out.method;
-      maps.quality[g] = out.quality;
-      if (out.method >= 0 && out.method < 5) ++local[out.method];
-      local_iterations += out.me_iterations;
-    }
+      const long count = std::min(kPixelBlock, npix - b);
+      const double* block = source.Spectra(b, count, buffer);
+      for (long p = b; p < b + count; ++p) {
+        const double* spectra = block + static_cast<std::size_t>(p - b) * record;  // [stokes][wavelength]
+        PixelSpectrum s;
+        s.wavelength_nm = info_.wavelength_nm.data();
+        s.n = nw;
+        s.I = spectra + static_cast<std::size_t>(si_) * nw;
+        s.Q = has_qu_ ? spectra + static_cast<std::size_t>(sq_) * nw : nullptr;
+        s.U = has_qu_ ? spectra + static_cast<std::size_t>(su_) * nw : nullptr;
+        s.V = has_v_ ? spectra + static_cast<std::size_t>(sv_) * nw : nullptr;
+        proc.Process(s, CheckPixelSanity(s, layout_.continuum, sanity), out);
+        const std::size_t g = static_cast<std::size_t>(y0 * info_.nx + p);
+        for (int k = 0; k < kSlotCount; ++k) maps.slots[static_cast<std::size_t>(k)][g] = out.v[k];
+        maps.method[g] = out.method;
+        maps.quality[g] = out.quality;
+        if (out.method >= 0 && out.method < 5) ++local[out.method];
+        local_iterations += out.me_iterations;
+      }
     }
 #pragma omp critical
     {
