@@ -625,6 +625,9 @@ void FieldMapEngine::ChooseLayout(CubeReader& reader) {
   ChooseLayout(tile);
 }
 
+// Pixels per gather (8 pixels' IQUV spectra of 60 samples: 15 KiB, within L1).
+constexpr long kPixelBlock = 8;
+
 void FieldMapEngine::ChooseLayout(const RawCubeTile& first_tile) {
   // The spectral layout always comes from the first tile, so a resumed run makes the same choices.
   if (first_tile.y_begin != 0 || first_tile.nx != info_.nx)
@@ -632,12 +635,18 @@ void FieldMapEngine::ChooseLayout(const RawCubeTile& first_tile) {
   // Pixels with non-finite or absurd samples (data_sanity.hpp) stay out of the mean profile and of the cube's
   // median level, which sets the data-sanity ceiling.
   const std::size_t nw = info_.wavelength_nm.size();
-  std::vector<double> mean_I(nw, 0.0), spectra(nw * static_cast<std::size_t>(info_.n_stokes()));
+  const std::size_t record = nw * static_cast<std::size_t>(info_.n_stokes());
+  std::vector<double> mean_I(nw, 0.0), spectra(record * static_cast<std::size_t>(kPixelBlock));
   std::vector<long> count(nw, 0);
   const long np = first_tile.n_pixels();
+  // Pixel p's spectra, gathered a block of kPixelBlock pixels at a time (CheckSampleRange finds NaN/Inf).
+  long block_begin = -1;
   auto gather = [&](long p) {
-    first_tile.Gather(p, spectra.data());
-    const double* d = spectra.data();
+    if (block_begin < 0 || p < block_begin || p >= block_begin + kPixelBlock) {
+      block_begin = p - p % kPixelBlock;
+      first_tile.GatherBlock(block_begin, std::min(kPixelBlock, np - block_begin), spectra.data());
+    }
+    const double* d = spectra.data() + static_cast<std::size_t>(p - block_begin) * record;
     return PixelSpectrum{info_.wavelength_nm.data(), nw, d + static_cast<std::size_t>(si_) * nw,
                          has_qu_ ? d + static_cast<std::size_t>(sq_) * nw : nullptr,
                          has_qu_ ? d + static_cast<std::size_t>(su_) * nw : nullptr,
@@ -652,6 +661,7 @@ void FieldMapEngine::ChooseLayout(const RawCubeTile& first_tile) {
     for (std::size_t k = static_cast<std::size_t>(p) % stride; k < nw; k += stride) levels.push_back(s.I[k]);
   }
   const double median_level = MedianLevel(std::move(levels));
+  block_begin = -1;
   const DataSanityLimits range = MakeSanityLimits(info_.bitpix, median_level, 0.0);
   for (long p = 0; p < np; ++p) {
     const PixelSpectrum s = gather(p);
@@ -728,9 +738,6 @@ void FieldMapEngine::CheckRows(long y_begin, long y_count, long nx, const FieldM
     throw OptionError("FieldMapEngine::Compute: rows " + std::to_string(y_begin) + ".." +
                       std::to_string(y_begin + y_count - 1) + " lie outside the maps");
 }
-
-// Pixels per gather (8 pixels' IQUV spectra of 60 samples: 15 KiB, within L1).
-constexpr long kPixelBlock = 8;
 
 template <class Source>
 void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& maps) const {
