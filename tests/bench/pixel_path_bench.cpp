@@ -47,6 +47,8 @@ int main(int argc, char** argv) {
     us.push_back(s / static_cast<double>(tile.n_pixels()) * 1e6);
   }
   std::sort(us.begin(), us.end());
+  const zeeline::SpectralLayout& lay = engine.layout();
+  std::printf("layout: fit window +-%.4f nm, %zu continuum samples\n", lay.window_halfwidth_nm, lay.continuum.size());
   std::printf("%s: %ld pixels x %ld wavelengths x %d Stokes, method %s, 1 thread, %d runs: best %.3f us/pixel, median %.3f\n",
               path.c_str(), tile.n_pixels(), tile.n_wavelength, tile.n_stokes, method.c_str(), repeats,
               us.front(), us[us.size() / 2]);
