@@ -86,6 +86,47 @@ double MaxExcess(const double* x, const double* I, std::size_t n) {
   return m;
 }
 
+// The full-Stokes pixel in one pass: whether every sample of I, Q, U, V is within `limit` (NaN is not) and, for
+// a pixel where they all are, the maxima of |X| - I for X = Q, U, V (else meaningless). Each sample is loaded
+// once; the tests are those of RangeBits and MaxExcess, so the outcome is the same.
+bool InRangeWithExcess(const PixelSpectrum& s, double limit, double excess[3]) {
+  const double* const I = s.I;
+  const double* const X[3] = {s.Q, s.U, s.V};
+  const std::size_t n = s.n;
+  double m[3] = {-HUGE_VAL, -HUGE_VAL, -HUGE_VAL};
+  bool in_range = true;
+  std::size_t k = 0;
+#if defined(__SSE2__)
+  const __m128d sign = _mm_set1_pd(-0.0), lim = _mm_set1_pd(limit);
+  __m128d ok = _mm_castsi128_pd(_mm_set1_epi32(-1));
+  __m128d mx[3] = {_mm_set1_pd(-HUGE_VAL), _mm_set1_pd(-HUGE_VAL), _mm_set1_pd(-HUGE_VAL)};
+  for (; k + 2 <= n; k += 2) {
+    const __m128d i = _mm_loadu_pd(I + k);
+    ok = _mm_and_pd(ok, _mm_cmple_pd(_mm_andnot_pd(sign, i), lim));
+    for (int p = 0; p < 3; ++p) {
+      const __m128d a = _mm_andnot_pd(sign, _mm_loadu_pd(X[p] + k));
+      ok = _mm_and_pd(ok, _mm_cmple_pd(a, lim));
+      mx[p] = _mm_max_pd(_mm_sub_pd(a, i), mx[p]);
+    }
+  }
+  in_range = _mm_movemask_pd(ok) == 3;
+  for (int p = 0; p < 3; ++p) {
+    double lanes[2];
+    _mm_storeu_pd(lanes, mx[p]);
+    m[p] = std::max(lanes[0], lanes[1]);
+  }
+#endif
+  for (; k < n; ++k) {
+    in_range = in_range && std::fabs(I[k]) <= limit;
+    for (int p = 0; p < 3; ++p) {
+      in_range = in_range && std::fabs(X[p][k]) <= limit;
+      m[p] = std::max(m[p], std::fabs(X[p][k]) - I[k]);
+    }
+  }
+  for (int p = 0; p < 3; ++p) excess[p] = m[p];
+  return in_range;
+}
+
 }  // namespace
 
 std::uint32_t CheckSampleRange(const PixelSpectrum& s, const DataSanityLimits& limits) {
@@ -96,8 +137,13 @@ std::uint32_t CheckSampleRange(const PixelSpectrum& s, const DataSanityLimits& l
 
 std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::size_t>& continuum_samples,
                                const DataSanityLimits& limits) {
-  const std::uint32_t range = CheckSampleRange(s, limits);
-  if (range) return range;
+  // Full Stokes (the map's case): the range test and the |X| - I maxima in one pass over the samples.
+  double excess[3] = {-HUGE_VAL, -HUGE_VAL, -HUGE_VAL};
+  const bool full = s.Q && s.U && s.V;
+  if (!full || !InRangeWithExcess(s, std::min(limits.abs_limit, limits.level_ceiling), excess)) {
+    const std::uint32_t range = CheckSampleRange(s, limits);
+    if (range) return range;
+  }
   // Continuum level: the mean of I over the continuum samples (as EstimateContinuum, without the noise).
   double sum = 0.0;
   for (std::size_t i : continuum_samples) sum += s.I[i];
@@ -107,7 +153,8 @@ std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::si
   // pixel that comes close (the common case costs one pass).
   const double rounding = 1e-6 * ic;
   auto max_excess = [&](const double* x) { return x ? MaxExcess(x, s.I, s.n) : -HUGE_VAL; };
-  const double eq = max_excess(s.Q), eu = max_excess(s.U), ev = max_excess(s.V);
+  const double eq = full ? excess[0] : max_excess(s.Q), eu = full ? excess[1] : max_excess(s.U),
+               ev = full ? excess[2] : max_excess(s.V);
   if (std::max({eq, eu, ev}) <= rounding) return 0;
   const ContinuumEstimate c = EstimateContinuum(s, continuum_samples, limits.noise_rel);
   // The difference |X| - I carries the noise of both.
