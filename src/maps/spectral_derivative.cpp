@@ -1,5 +1,6 @@
 #include "zeeline/maps/spectral_derivative.hpp"
 
+#include <algorithm>
 #include <cmath>
 
 namespace zeeline {
@@ -124,8 +125,10 @@ void DerivativeStencil::First(const double* f, double* out) const {
     for (std::size_t i = 0; i < n_; ++i) out[i] = std::nan("");
     return;
   }
-  for (std::size_t i = 0; i < n_; ++i)
-    if (i < five_begin_ || i >= five_end_) out[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
+  // Samples outside the five-point run: [0, five_begin) and [five_end, n) (all of them when the run is empty).
+  const std::size_t head = five_end_ > five_begin_ ? five_begin_ : n_;
+  for (std::size_t i = 0; i < head; ++i) out[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
+  for (std::size_t i = std::max(head, five_end_); i < n_; ++i) out[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
   const double* den = den1_.data();
   for (std::size_t i = five_begin_; i < five_end_; ++i) out[i] = FivePointFirst(f, i, den[i]);
 }
@@ -135,8 +138,10 @@ void DerivativeStencil::Second(const double* f, double* out) const {
     for (std::size_t i = 0; i < n_; ++i) out[i] = std::nan("");
     return;
   }
-  for (std::size_t i = 0; i < n_; ++i)
-    if (i < five_begin_ || i >= five_end_) out[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
+  // Samples outside the five-point run: [0, five_begin) and [five_end, n) (all of them when the run is empty).
+  const std::size_t head = five_end_ > five_begin_ ? five_begin_ : n_;
+  for (std::size_t i = 0; i < head; ++i) out[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
+  for (std::size_t i = std::max(head, five_end_); i < n_; ++i) out[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
   const double* den = den2_.data();
   for (std::size_t i = five_begin_; i < five_end_; ++i) out[i] = FivePointSecond(f, i, den[i]);
 }
