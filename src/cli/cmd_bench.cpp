@@ -10,6 +10,7 @@
 #include <sys/resource.h>
 #include <sys/wait.h>
 #include <fcntl.h>
+#include <signal.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -27,6 +28,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "cli/interrupt.hpp"
 #include "cli/parallel.hpp"
 #include "zeeline/atomic/level.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
@@ -50,7 +52,11 @@ struct BenchArgs {
   int points = 96;
   bool quick = false;
   std::string keep;  // directory for the bench files (kept); empty = a temporary one, removed
+  bool overwrite = false;  // with keep: replace bench files already there
 };
+
+// Ctrl-C: thrown out of RunBench so that its temporary directory is removed on the way out (exit 130).
+struct BenchInterrupted {};
 
 double Seconds(Clock::time_point t0) { return std::chrono::duration<double>(Clock::now() - t0).count(); }
 
@@ -95,6 +101,7 @@ ChildRun RunChild(const std::vector<std::string>& argv, const std::string& log) 
   int status = 0;
   struct rusage ru {};
   wait4(pid, &status, 0, &ru);
+  if (WIFSIGNALED(status) && WTERMSIG(status) == SIGINT) throw BenchInterrupted{};  // Ctrl-C reached the child too
   ChildRun r;
   r.wall_s = Seconds(t0);
   r.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : 128 + (WIFSIGNALED(status) ? WTERMSIG(status) : 0);
@@ -221,7 +228,12 @@ void RunBench(const BenchArgs& a) {
   bool remove_dir = false;
   if (!a.keep.empty()) {
     dir = a.keep;
-    fs::create_directories(dir);
+    if (!fs::is_directory(dir)) throw OptionError("--keep " + a.keep + ": not an existing directory");
+    for (const char* name : {"bench.log", "bench_cube.fits", "bench_cube_4x.fits", "bench_maps.fits"})
+      if (fs::exists(dir / name) && !a.overwrite)
+        throw OutputError((dir / name).string() + " exists; use --overwrite to replace it (nothing was written)");
+    std::error_code ec;
+    fs::remove(dir / "bench.log", ec);  // the log is appended to by every child run: start it afresh
   } else {
     std::string tmpl = (fs::temp_directory_path() / "zeeline-bench-XXXXXX").string();
     if (!mkdtemp(tmpl.data())) throw OutputError("bench: cannot create a temporary directory in " + fs::temp_directory_path().string());
@@ -236,6 +248,10 @@ void RunBench(const BenchArgs& a) {
       if (on) fs::remove_all(d, ec);
     }
   } cleanup{dir, remove_dir};
+  InterruptGuard interrupt;  // the bench survives Ctrl-C long enough to remove its files (BenchInterrupted)
+  auto stop_if_interrupted = [&interrupt] {
+    if (interrupt.interrupted()) throw BenchInterrupted{};
+  };
   const std::string log = (dir / "bench.log").string();
   const std::string cube = (dir / "bench_cube.fits").string();
   const long pixels = a.nx * a.ny;
@@ -281,18 +297,22 @@ void RunBench(const BenchArgs& a) {
 
   // The library's map runs (no output file).
   FieldMaps maps;
+  stop_if_interrupted();
   const Timing wfa = LibraryMap(cube, MapMethod::kWeakField, 1, maps);
+  stop_if_interrupted();
   const double wfa_s = wfa.wall_s;
   Figure("wfa.map_s", wfa_s, "s", "ComputeFieldMaps --method wfa, 1 thread, open to finished maps");
   Figure("wfa.px_per_s_core", static_cast<double>(pixels) / wfa.cpu_s, "px/s", "weak field, pixels per CPU second");
   Figure("wfa.over_read", wfa_s / bare_s, "x", "wfa.map_s / read.cfitsio_s");
   const Timing me1 = LibraryMap(cube, MapMethod::kMilneEddington, 1, maps);
+  stop_if_interrupted();
   const double me1_s = me1.wall_s;
   Figure("me.map_s", me1_s, "s", "ComputeFieldMaps --method me, 1 thread");
   Figure("me.px_per_s_core", static_cast<double>(pixels) / me1.cpu_s, "px/s", "Milne-Eddington, pixels per CPU second");
   Figure("me.iterations_per_px", static_cast<double>(maps.me_iterations) / static_cast<double>(pixels), "-",
          "Levenberg-Marquardt trial steps per pixel");
   const double me2_s = LibraryMap(cube, MapMethod::kMilneEddington, 2, maps).wall_s;
+  stop_if_interrupted();
   Figure("me.map_2threads_s", me2_s, "s", "the same with 2 threads");
   Figure("me.threads2_speedup", me1_s / me2_s, "x", "me.map_s / me.map_2threads_s (ideal 2)");
 
@@ -363,14 +383,21 @@ void AddBenchCommand(CLI::App& app) {
   cmd->add_option("--ny", a->ny, "bench cube height in pixels")->capture_default_str();
   cmd->add_option("--points", a->points, "wavelength samples")->capture_default_str();
   cmd->add_flag("--quick", a->quick, "a 24 x 24 x 48 cube: a few seconds, for a smoke test");
-  cmd->add_option("--keep", a->keep, "write the bench files into this directory and keep them");
+  cmd->add_option("--keep", a->keep, "write the bench files into this existing directory and keep them");
+  cmd->add_flag("--overwrite", a->overwrite, "with --keep: replace bench files already in the directory");
   cmd->callback([a] {
     BenchArgs args = *a;
     if (args.quick) {
       args.nx = args.ny = 24;
       args.points = 48;
     }
-    RunBench(args);
+    try {
+      RunBench(args);
+    } catch (const BenchInterrupted&) {
+      std::fprintf(stderr, "\nzeeline: bench interrupted%s\n",
+                   args.keep.empty() ? "; its temporary files were removed" : "");
+      std::exit(130);
+    }
   });
 }
 

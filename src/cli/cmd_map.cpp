@@ -453,7 +453,8 @@ void AddMapCommand(CLI::App& app, int argc, char** argv) {
   AddMapComputeOptions(cmd, *a);
   cmd->add_option("--rows-per-task", a->rows_per_task,
                   "under mpirun: spatial rows per unit of work handed to a rank (0 = guided: large first, small last; docs/scaling.md)")
-      ->capture_default_str();
+      ->capture_default_str()
+      ->check(CLI::NonNegativeNumber);
   cmd->add_option("--png", a->png_dir, "also write quicklook PNGs into this directory");
   cmd->add_flag("--overwrite", a->overwrite, "replace an existing output file");
   cmd->add_flag("--resume", a->resume, "keep a checkpoint (OUTPUT.checkpoint) and continue an interrupted run from it");

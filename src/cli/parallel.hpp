@@ -17,8 +17,6 @@
 #include <stdexcept>
 #include <string>
 
-#include "zeeline/maps/field_maps.hpp"
-
 #include "zeeline/io/cube_reader.hpp"
 #include "zeeline/maps/field_maps.hpp"
 

@@ -401,8 +401,9 @@ std::string QuicklookOptions::Validate() const {
 
 namespace {
 
-// Categorical colours (chosen for zeeline: distinct hues of similar weight, none close to white or grey); at least
-// as many as QUALITY bits in use, so no two bits share a colour.
+// Categorical colours: the first ten follow the general-purpose category palette of the matplotlib plotting
+// library (tab10; distinct hues of similar weight, none close to white or grey), four more added; at least as
+// many as QUALITY bits in use, so no two bits share a colour.
 constexpr std::array<std::array<unsigned char, 3>, 14> kCategoryColours = {{{31, 119, 180},
                                                                            {230, 120, 20},
                                                                            {40, 160, 60},

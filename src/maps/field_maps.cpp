@@ -202,10 +202,12 @@ class PixelProcessor {
 
     switch (m) {
       case MapMethod::kWeakField:
-        if (w.has_btrans) {
-          SetVector(out, w.has_blos ? w.blos_gauss : 0.0, w.has_blos ? w.blos_err_gauss : 0.0, w.btrans_gauss,
-                    w.btrans_err_gauss, w.btrans_sq_err_gauss2);
-          if (!w.has_blos) out.v[kSlotBlos] = out.v[kSlotBlosErr] = kNaN;
+        if (w.has_btrans && w.has_blos) {
+          SetVector(out, w.blos_gauss, w.blos_err_gauss, w.btrans_gauss, w.btrans_err_gauss, w.btrans_sq_err_gauss2);
+        } else if (w.has_btrans) {
+          // No B_LOS (no Stokes V): |B| and the inclination are unknown, not B_T and 90 deg.
+          out.v[kSlotBtrans] = static_cast<float>(w.btrans_gauss);
+          out.v[kSlotBtransErr] = static_cast<float>(w.btrans_err_gauss);
         } else if (w.has_blos) {
           out.v[kSlotBlos] = static_cast<float>(w.blos_gauss);
           out.v[kSlotBlosErr] = static_cast<float>(w.blos_err_gauss);

@@ -291,7 +291,6 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
     m.regime_note = o.regime == ZeemanRegime::kZeeman ? "linear Zeeman pattern (requested)"
                                                       : "linear Zeeman pattern (no term energies for the mixed regime)";
   }
-  m.field_scale_gauss = b_star;
   // Field scale, splitting ratio and the weak-field verdict: the regime decision `zeeline map` makes
   // (maps/weak_field_regime.hpp), with the component fit's width (instrument included) as the fallback width.
   double fallback_width = kNaN;

@@ -43,8 +43,11 @@ void BroadcastStatus(int& status, std::string& message) {
   if (n > 0) MPI_Bcast(message.data(), static_cast<int>(n), MPI_CHAR, 0, MPI_COMM_WORLD);
 }
 
+// Every member of SpectralLayout (field_maps.hpp): a member left out would make the workers' pixels differ
+// from one process's (the median level sets the data-sanity ceiling).
 void BroadcastLayout(SpectralLayout& layout) {
   MPI_Bcast(&layout.window_halfwidth_nm, 1, MPI_DOUBLE, 0, MPI_COMM_WORLD);
+  MPI_Bcast(&layout.median_level, 1, MPI_DOUBLE, 0, MPI_COMM_WORLD);
   std::vector<std::uint64_t> idx(layout.continuum.begin(), layout.continuum.end());
   std::int64_t n = static_cast<std::int64_t>(idx.size());
   MPI_Bcast(&n, 1, MPI_INT64_T, 0, MPI_COMM_WORLD);

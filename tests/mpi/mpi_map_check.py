@@ -79,6 +79,11 @@ with tempfile.TemporaryDirectory() as tmp:
 
     cube = path("cube.fits")
     run([ZEELINE, "simulate", "--demo", "--nx", "16", "--ny", "23", *LINE, "--seed", "11", "-o", cube, "-q"])
+    # One pixel 1e10 times too bright, in a row a worker rank computes: the data-sanity ceiling (1e8 x the
+    # cube's median level, fixed by rank 0) must reach every rank (ABSURD_INPUT, QUALITY bit 11, docs/errors.md).
+    ABSURD_Y, ABSURD_X = 20, 5
+    with fits.open(cube, mode="update") as h:
+        h[0].data[:, :, ABSURD_Y, ABSURD_X] *= 1e10  # numpy axes (Stokes, wavelength, y, x)
 
     # ---- bit-identical maps, one process vs 2 and 3 ranks
     for method, extra in (("wfa", []), ("me", []), ("auto", ["--disambiguate", "--smooth-azimuth", "2"])):
@@ -95,6 +100,10 @@ with tempfile.TemporaryDirectory() as tmp:
                 same_maps(one, f, f"{method} {label}")
             else:
                 check(False, f"{method} {label}: a map file is missing")
+    for method in ("wfa", "me", "auto"):
+        with fits.open(path(f"three_{method}.fits")) as h:
+            q = int(h["QUALITY"].data[ABSURD_Y, ABSURD_X])
+            check(q & (1 << 11), f"{method} -np 3: the absurd pixel has QUALITY {q}, not ABSURD_INPUT")
     with fits.open(path("three_auto.fits")) as h:
         counts = np.bincount(h["METHOD"].data.ravel(), minlength=5)
         check(counts[1] > 0 and counts[4] > 0, f"auto should mix wfa and me pixels here: METHOD counts {counts}")

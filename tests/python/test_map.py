@@ -121,6 +121,20 @@ def test_stokes_i_and_v_arrays_give_the_line_of_sight_maps(tmp):
     assert "B_LOS" in maps and "B_TRANS" not in maps and "B_AZIM" not in maps
 
 
+def test_stokes_i_q_u_give_the_transverse_field_and_no_inclination(tmp):
+    # Without V there is no B_LOS, so |B| and the inclination are undetermined (B_T = |B| sin(gamma) alone;
+    # common practice): they must be NaN, not B_T and 90 deg.
+    wl, data = _demo_arrays()
+    iqu = np.ascontiguousarray(data[:3, :, Y0:Y1, X0:X1])
+    maps = zeeline.map(iqu, wavelength_nm=wl, stokes="IQU", **FE)  # auto: wfa refuses a cube without V
+    assert np.isfinite(maps["B_TRANS"]).sum() > 0
+    assert np.isfinite(maps["B_AZIM"]).sum() > 0
+    wfa = maps["METHOD"] == 1  # resolved-splitting pixels (METHOD 3) do measure |B| from Q, U alone
+    assert wfa.sum() > 0
+    for name in ("B_LOS", "B_TOTAL", "B_INCL"):
+        assert name not in maps or not np.isfinite(maps[name][wfa]).any(), name
+
+
 def test_a_missing_cube_file_is_an_os_error_with_the_cli_message(tmp):
     message = cli_error("map", "/nonexistent/cube.fits", "--line", "FeI_6302", "--catalog", LINES, "-o",
                         tmp / "m.fits", expect_code=1)

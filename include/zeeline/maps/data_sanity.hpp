@@ -7,7 +7,7 @@
 //                    (|x| > 1e-3 x the largest finite value of BITPIX -32 or -64: FLT_MAX = 3.40282e38,
 //                    DBL_MAX = 1.79769e308, IEEE 754-2008 binary32/binary64; values near them are fill values,
 //                    not light), or lies more than kAbsurdOrders (8) orders of magnitude above the cube's median
-//                    level (the median |I| of the first tile's clean samples, CubeLevel below; no real
+//                    level (the median |I| of the first tile's clean samples, MedianLevel below; no real
 //                    scene spans 1e8 in intensity within one cube, while a stray 3e38 or 1e20 does);
 //   NONPOSITIVE_I    the continuum intensity Ic (mean of I over the continuum samples) is <= 0: intensity
 //                    is positive by definition, so a negative or zero Ic means a bad background subtraction,

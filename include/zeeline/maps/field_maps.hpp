@@ -180,6 +180,8 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& options, c
 // not depend on how the rows were split.
 
 /// The spectral choices made once per run: fit window and continuum samples (from the first tile).
+/// Chosen once per cube from the first tile; under MPI rank 0 chooses and broadcasts every member
+/// (src/mpi/distributed_maps.cpp BroadcastLayout: a new member must be added there).
 struct SpectralLayout {
   double window_halfwidth_nm = 0.0;
   std::vector<std::size_t> continuum;  ///< indices into the wavelength grid
