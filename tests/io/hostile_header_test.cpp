@@ -35,6 +35,13 @@ void PatchCard(const std::string& path, const std::string& key, std::string card
   std::ofstream(path, std::ios::binary | std::ios::trunc) << bytes;
 }
 
+// A valid cube (test::CubeSpec) written into `dir`, to be patched.
+std::string WrittenCube(const test::TempDir& dir, const test::CubeSpec& spec = {}) {
+  const std::string path = dir.File("cube.fits");
+  test::WriteCube(path, spec);
+  return path;
+}
+
 std::string CubeError(const std::string& path) {
   try {
     CubeReader r(path);
@@ -46,8 +53,7 @@ std::string CubeError(const std::string& path) {
 
 TEST(HostileHeader, UnterminatedStringValueIsRefusedByName) {
   test::TempDir dir;
-  const std::string path = dir.File("cube.fits");
-  test::WriteCube(path, test::CubeSpec{});
+  const std::string path = WrittenCube(dir);
   PatchCard(path, "CUNIT1  =", "CUNIT1  = '" + std::string(69, ' '));  // the reproducer's shape
   const std::string m = CubeError(path);
   EXPECT_NE(m.find("cube.fits"), std::string::npos) << m;
@@ -57,8 +63,7 @@ TEST(HostileHeader, UnterminatedStringValueIsRefusedByName) {
 
 TEST(HostileHeader, QuoteInsideAStringIsNotItsEnd) {
   test::TempDir dir;
-  const std::string path = dir.File("cube.fits");
-  test::WriteCube(path, test::CubeSpec{});
+  const std::string path = WrittenCube(dir);
   PatchCard(path, "CTYPE1  =", "CTYPE1  = 'HPLN-TAN'");
   PatchCard(path, "CUNIT1  =", "CUNIT1  = 'arcsec' / the observer''s unit");
   EXPECT_EQ(CubeError(path), "");
@@ -68,8 +73,7 @@ TEST(HostileHeader, QuoteInsideAStringIsNotItsEnd) {
 
 TEST(HostileHeader, ControlByteIsRefusedWithItsColumn) {
   test::TempDir dir;
-  const std::string path = dir.File("cube.fits");
-  test::WriteCube(path, test::CubeSpec{});
+  const std::string path = WrittenCube(dir);
   PatchCard(path, "CRVAL1  =", std::string("CRVAL1  =                ") + '\x01' + "20.0");
   const std::string m = CubeError(path);
   EXPECT_NE(m.find("CRVAL1"), std::string::npos) << m;
@@ -89,8 +93,7 @@ TEST(HostileHeader, CommentaryCardsMayHoldAnyByte) {
 TEST(HostileHeader, HugeStokesCodeIsRefusedWithoutOverflow) {
   // Found by fuzz_fits_header under UBSan: a STOKES value of 4.757e14 was cast to int before its range check.
   test::TempDir dir;
-  const std::string path = dir.File("cube.fits");
-  test::WriteCube(path, test::CubeSpec{});
+  const std::string path = WrittenCube(dir);
   PatchCard(path, "CRVAL4  =", "CRVAL4  =          4.757010E+14");
   const std::string m = CubeError(path);
   EXPECT_NE(m.find("CRVAL4"), std::string::npos) << m;
