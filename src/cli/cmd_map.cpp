@@ -143,22 +143,34 @@ std::string JoinArgs(int argc, char** argv) {
 void RunMap(const MapArgs& a) {
   namespace fs = std::filesystem;
   const auto t_start = std::chrono::steady_clock::now();
-  if (a.output.empty()) throw OptionError("-o MAPS.fits is required");
-  CheckOutputFile(a.output, a.overwrite, "-o");  // before any work (docs/cli.md, "Outputs")
-  CheckOutputDirectory(a.png_dir, "--png");
-  if (!a.png_dir.empty() && !a.overwrite) {
-    // Refuse up front (before any work) if a quicklook this run would write already exists.
-    std::vector<std::string> names{map_names::kMethod, map_names::kQuality};
-    for (int s = 0; s < kSlotCount; ++s) names.push_back(MapSlotName(s));
-    for (const auto& t : QuicklookTargets(a.output, a.png_dir, names))
-      if (fs::exists(t)) throw OutputError(t + ": exists; use --overwrite to replace it (nothing was written)");
+  // Under MPI every rank does this set-up alone; a failure on any rank is agreed on before the distributed
+  // run (AgreeOnSetup, cli/parallel.hpp): printed once, every rank exits with its code, no MPI_Abort.
+  std::exception_ptr failure;
+  std::unique_ptr<SelectedLine> line_ptr;
+  std::unique_ptr<CubeReader> reader_ptr;
+  std::unique_ptr<MapSetup> setup_ptr;
+  try {
+    if (a.output.empty()) throw OptionError("-o MAPS.fits is required");
+    CheckOutputFile(a.output, a.overwrite, "-o");  // before any work (docs/cli.md, "Outputs")
+    CheckOutputDirectory(a.png_dir, "--png");
+    if (!a.png_dir.empty() && !a.overwrite) {
+      // Refuse up front (before any work) if a quicklook this run would write already exists.
+      std::vector<std::string> names{map_names::kMethod, map_names::kQuality};
+      for (int s = 0; s < kSlotCount; ++s) names.push_back(MapSlotName(s));
+      for (const auto& t : QuicklookTargets(a.output, a.png_dir, names))
+        if (fs::exists(t)) throw OutputError(t + ": exists; use --overwrite to replace it (nothing was written)");
+    }
+    line_ptr = std::make_unique<SelectedLine>(ResolveLine(a.line));
+    reader_ptr = std::make_unique<CubeReader>(a.cube, MapReadOptions(a));
+    setup_ptr = std::make_unique<MapSetup>(MapOptionsFromArgs(a, *line_ptr, reader_ptr->info()));
+  } catch (...) {
+    failure = std::current_exception();
   }
-  const SelectedLine line = ResolveLine(a.line);
-
-  CubeReader reader(a.cube, MapReadOptions(a));
+  AgreeOnSetup(failure);
+  const SelectedLine& line = *line_ptr;
+  CubeReader& reader = *reader_ptr;
   const CubeInfo& info = reader.info();
-
-  const MapSetup setup = MapOptionsFromArgs(a, line, info);
+  const MapSetup& setup = *setup_ptr;
   const FieldMapOptions& o = setup.options;
   const std::string& split_regime = setup.split_regime;
 
@@ -213,11 +225,15 @@ void RunMap(const MapArgs& a) {
   // The maps go into the file as their rows are finished (rank 0 writes under MPI); the file appears under
   // its name only when complete. With --resume it is built as OUTPUT.partial and kept for the next run.
   std::unique_ptr<MapFileSink> sink;
-  if (IsOutputRank()) {
-    sink = std::make_unique<MapFileSink>(a.output, MapHduLayout(info.nx, info.ny, o), info.spatial_wcs_header, w,
-                                         a.resume ? a.output + ".partial" : std::string());
-    run.sink = sink.get();
+  try {
+    if (IsOutputRank())
+      sink = std::make_unique<MapFileSink>(a.output, MapHduLayout(info.nx, info.ny, o), info.spatial_wcs_header, w,
+                                           a.resume ? a.output + ".partial" : std::string());
+  } catch (...) {
+    failure = std::current_exception();
   }
+  AgreeOnSetup(failure);  // e.g. the output directory is not writable (rank 0 alone knows)
+  run.sink = sink.get();
 
   FieldMaps maps;
   std::string ranks_summary;

@@ -45,6 +45,8 @@ int Run(int argc, char** argv) {
     return zeeline::cli::ReportFailure(e, 2);
   } catch (const zeeline::cli::OutputError& e) {
     return zeeline::cli::ReportFailure(e, 3);
+  } catch (const zeeline::cli::AgreedError& e) {  // every rank knows it (cli/parallel.hpp AgreeOnSetup)
+    return zeeline::cli::ReportFailure(e, e.code());
   } catch (const std::exception& e) {
     return zeeline::cli::ReportFailure(e, 1);
   }

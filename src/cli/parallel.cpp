@@ -8,6 +8,7 @@
 #include <string>
 #include <thread>
 
+#include "cli/commands.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/threads.hpp"
 
@@ -96,6 +97,38 @@ int ReportFailure(const std::exception& e, int code) {
   std::fflush(stderr);
   g_backend->abort(code);
   return code;
+}
+
+int ExitCodeOf(const std::exception& e) {
+  if (const auto* agreed = dynamic_cast<const AgreedError*>(&e)) return agreed->code();
+  if (dynamic_cast<const OptionError*>(&e) || dynamic_cast<const UnitError*>(&e)) return 2;
+  if (dynamic_cast<const OutputError*>(&e)) return 3;
+  return 1;
+}
+
+void AgreeOnSetup(const std::exception_ptr& failure) {
+  if (!g_parallel.mpi || g_parallel.size == 1 || !g_backend) {
+    if (failure) std::rethrow_exception(failure);
+    return;
+  }
+  int code = 0;
+  std::string message;
+  if (failure) {
+    try {
+      std::rethrow_exception(failure);
+    } catch (const std::exception& e) {
+      code = ExitCodeOf(e);
+      message = e.what();
+    } catch (...) {
+      code = 1;
+      message = "unknown error";
+    }
+  }
+  int reporter = 0;
+  if (!g_backend->agree_failure(code, message, reporter)) return;
+  if (reporter != 0)
+    message = "(rank " + std::to_string(reporter) + " of " + std::to_string(g_parallel.size) + ") " + message;
+  throw AgreedError(code, message);
 }
 
 RunStatus ComputeMapsOnAllRanks(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,

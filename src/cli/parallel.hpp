@@ -14,6 +14,7 @@
 // never started. This file never includes mpi.h: zeeline_cli (shared with the Python module) has no MPI.
 #pragma once
 
+#include <exception>
 #include <stdexcept>
 #include <string>
 
@@ -39,6 +40,10 @@ struct ParallelBackend {
   RunStatus (*compute_maps)(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,
                             long rows_per_task, FieldMaps& maps, std::string& summary);
   const char* launcher;  ///< mpiexec found at build time (for bench)
+  /// Collective: every rank gives its set-up failure (code 0 = none, and its message). Returns false when no
+  /// rank failed; otherwise true, with `code` and `message` of the lowest failing rank on every rank and
+  /// `reporter` set to that rank.
+  bool (*agree_failure)(int& code, std::string& message, int& reporter);
 };
 /// Called by main() before StartParallel in a program built with MPI.
 void InstallParallelBackend(const ParallelBackend* backend);
@@ -67,6 +72,27 @@ class CollectiveError : public std::runtime_error {
  public:
   using std::runtime_error::runtime_error;
 };
+
+/// A failure every rank knows of with its exit code (AgreeOnSetup): printed once, by rank 0.
+class AgreedError : public CollectiveError {
+ public:
+  AgreedError(int code, const std::string& message) : CollectiveError(message), code_(code) {}
+  int code() const { return code_; }
+
+ private:
+  int code_;
+};
+
+/// Exit code of a failure as main() reports it: 2 bad command line (OptionError, UnitError), 3 output not
+/// written (OutputError), 1 otherwise (docs/cli.md).
+int ExitCodeOf(const std::exception& e);
+
+/// Under MPI with several ranks, a collective check point after the set-up each rank does alone (options,
+/// cube header, output file): `failure` is this rank's exception (null when it succeeded). When any rank
+/// failed, every rank throws AgreedError with the lowest failing rank's code and message, so the failure is
+/// printed once and every rank exits with that code (no MPI_Abort). Otherwise returns; in one process it
+/// rethrows `failure` if set.
+void AgreeOnSetup(const std::exception_ptr& failure);
 
 /// Prints a failure caught in main and returns `code`; under MPI as described above (may not return:
 /// MPI_Abort).

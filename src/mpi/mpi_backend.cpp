@@ -2,6 +2,7 @@
 
 #include <mpi.h>
 
+#include <cstdint>
 #include <string>
 
 #include "cli/parallel.hpp"
@@ -52,11 +53,24 @@ RunStatus ComputeMaps(CubeReader& reader, const FieldMapOptions& options, const 
   return status;
 }
 
+bool AgreeFailure(int& code, std::string& message, int& reporter) {
+  const int size = Parallel().size;
+  const int mine = code != 0 ? Parallel().rank : size;
+  MPI_Allreduce(&mine, &reporter, 1, MPI_INT, MPI_MIN, MPI_COMM_WORLD);
+  if (reporter == size) return false;
+  MPI_Bcast(&code, 1, MPI_INT, reporter, MPI_COMM_WORLD);
+  std::int64_t n = static_cast<std::int64_t>(message.size());
+  MPI_Bcast(&n, 1, MPI_INT64_T, reporter, MPI_COMM_WORLD);
+  message.resize(static_cast<std::size_t>(n));
+  if (n > 0) MPI_Bcast(message.data(), static_cast<int>(n), MPI_CHAR, reporter, MPI_COMM_WORLD);
+  return true;
+}
+
 #ifndef ZEELINE_MPIEXEC
 #define ZEELINE_MPIEXEC "mpirun"
 #endif
 
-const ParallelBackend kMpiBackend{Start, Stop, Abort, ComputeMaps, ZEELINE_MPIEXEC};
+const ParallelBackend kMpiBackend{Start, Stop, Abort, ComputeMaps, ZEELINE_MPIEXEC, AgreeFailure};
 
 }  // namespace
 

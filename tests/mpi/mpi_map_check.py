@@ -15,7 +15,8 @@
 * The build without MPI (zeeline_serial, the same objects with cli/parallel.cpp compiled without MPI) maps
   alone exactly like zeeline, and refuses to run as 2 copies (exit 2, message says so, no output).
 * Other commands run on rank 0 only: `lande` under -np 2 prints its table once.
-* An existing output is not replaced without --overwrite under MPI either (exit 3, file untouched).
+* An existing output is not replaced without --overwrite under MPI either (exit 3, file untouched); set-up
+  failures (existing output, missing cube, missing output directory) print one error line, no MPI_Abort.
 Usage: /usr/bin/python3 mpi_map_check.py ZEELINE ZEELINE_SERIAL MPIEXEC
 """
 import os
@@ -168,6 +169,14 @@ with tempfile.TemporaryDirectory() as tmp:
     p = run([*mpirun(2), "map", cube, *LINE, "--method", "wfa", "-o", existing], expect_rc=3)
     check("exists" in p.stderr, f"existing output under MPI: {p.stderr.strip()[:300]}")
     check(os.path.exists(existing) and open(existing, "rb").read() == before, "existing output was changed")
+    # A set-up failure every rank meets is agreed on, not aborted: one error line, no MPI_Abort (docs/cli.md).
+    for args, rc, what in (([cube, *LINE, "--method", "wfa", "-o", existing], 3, "exists"),
+                           ([path("missing.fits"), *LINE, "-o", path("never.fits")], 1, "no such file"),
+                           ([cube, *LINE, "-o", path("no_dir/never.fits")], 3, "does not exist")):
+        p = run([*mpirun(2), "map", *args], expect_rc=rc)
+        lines = [l for l in p.stderr.splitlines() if l.startswith("zeeline:")]
+        check(len(lines) == 1 and what in lines[0] and "MPI_ABORT" not in p.stderr,
+              f"set-up failure under MPI ({what}): {p.stderr.strip()[:400]!r}")
 
 if failures:
     print(f"{len(failures)} failure(s)")
