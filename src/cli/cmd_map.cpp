@@ -437,14 +437,8 @@ std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {
     if (slot >= 0) {
       const auto& v = maps.slots[static_cast<std::size_t>(slot)];
       if (std::none_of(v.begin(), v.end(), [](float x) { return std::isfinite(x); })) continue;
-      h.values.assign(v.begin(), v.end());
-    } else if (h.extname == map_names::kMethod) {
-      h.values.assign(maps.method.begin(), maps.method.end());
-    } else if (h.extname == map_names::kQuality) {
-      h.values.assign(maps.quality.begin(), maps.quality.end());
-    } else {  // AZIM_PICK
+    } else if (h.extname != map_names::kMethod && h.extname != map_names::kQuality) {  // AZIM_PICK
       if (maps.disambiguation.empty()) continue;
-      h.values.assign(maps.disambiguation.begin(), maps.disambiguation.end());
     }
     hdus.push_back(std::move(h));
   }

@@ -54,8 +54,9 @@ MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const Cu
 /// AZIM_PICK (int16, when disambiguated) and QUALITY (int32), with their keywords (docs/fits.md). The file
 /// keeps the map slots that have a finite value (FieldMaps::slots_with_values) and the others.
 std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o);
-/// The same HDUs with the values of whole maps in memory (the Python module), map slots without a finite
-/// value left out.
+/// The HDUs of MapHduLayout that whole maps in memory fill (the Python module): map slots without a finite
+/// value and AZIM_PICK without disambiguation left out. Without values: the caller takes them from `maps`
+/// (slots, method, quality, disambiguation), in their own types, without a copy as doubles.
 std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o);
 
 }  // namespace zeeline::cli

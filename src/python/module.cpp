@@ -5,6 +5,7 @@
 // the command's own code in-process and returns what `--json` prints as dicts of numpy arrays and numbers
 // (same keys, same numbers). measure, broadening_diagnose, map and calibrate_crosstalk also take numpy
 // arrays. Every function releases the GIL while the command runs.
+#include <algorithm>
 #include <atomic>
 #include <functional>
 #include <memory>
@@ -25,6 +26,7 @@
 #include "python/cli_call.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/io/cube_reader.hpp"
+#include "zeeline/io/field_map_writer.hpp"
 #include "zeeline/io/quality_flags.hpp"
 #include "zeeline/maps/field_maps.hpp"
 
@@ -177,20 +179,20 @@ py::object CalibrateCrosstalk(const py::object& cube, const py::object& waveleng
 }
 
 // ---- map -----------------------------------------------------------------------------------------------
-py::array MapArray(const ImageHdu& h, long nx, long ny) {
-  const std::vector<py::ssize_t> shape{static_cast<py::ssize_t>(ny), static_cast<py::ssize_t>(nx)};
-  auto fill = [&](auto array) {
-    auto* p = array.mutable_data();
-    for (std::size_t i = 0; i < h.values.size(); ++i) p[i] = static_cast<std::decay_t<decltype(*p)>>(h.values[i]);
+// One map of `maps` as a (ny, nx) array of its own type (float32 maps, int16 METHOD and AZIM_PICK, int32
+// QUALITY), chosen by the HDU's name (cli::MapHdus).
+py::array MapArray(const ImageHdu& h, const FieldMaps& maps) {
+  const std::vector<py::ssize_t> shape{static_cast<py::ssize_t>(maps.ny), static_cast<py::ssize_t>(maps.nx)};
+  auto copy = [&](const auto& values) {
+    py::array_t<typename std::decay_t<decltype(values)>::value_type> array(shape);
+    std::copy(values.begin(), values.end(), array.mutable_data());
     return py::array(array);
   };
-  switch (h.type) {
-    case FitsPixelType::kInt16: return fill(py::array_t<std::int16_t>(shape));
-    case FitsPixelType::kInt32: return fill(py::array_t<std::int32_t>(shape));
-    case FitsPixelType::kFloat64: return fill(py::array_t<double>(shape));
-    case FitsPixelType::kFloat32: break;
-  }
-  return fill(py::array_t<float>(shape));
+  for (int s = 0; s < kSlotCount; ++s)
+    if (h.extname == MapSlotName(s)) return copy(maps.slots[static_cast<std::size_t>(s)]);
+  if (h.extname == map_names::kMethod) return copy(maps.method);
+  if (h.extname == map_names::kQuality) return copy(maps.quality);
+  return copy(maps.disambiguation);  // AZIM_PICK
 }
 
 py::dict Map(const py::object& cube, const py::object& wavelength_nm, const std::string& stokes,
@@ -249,7 +251,7 @@ py::dict Map(const py::object& cube, const py::object& wavelength_nm, const std:
     throw py::error_already_set();
   }
   py::dict out;
-  for (const ImageHdu& h : hdus) out[py::str(h.extname)] = MapArray(h, maps.nx, maps.ny);
+  for (const ImageHdu& h : hdus) out[py::str(h.extname)] = MapArray(h, maps);
   return out;
 }
 
