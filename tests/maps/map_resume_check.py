@@ -22,24 +22,11 @@ from astropy.io import fits
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "common"))
 from damaged_fits import corrupt_row, fpack  # noqa: E402
+from script_checks import check, finish, run  # noqa: E402
 
 ZEELINE = sys.argv[1]
 SRC = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 LINE = ["--line", "FeI_6302", "--catalog", os.path.join(SRC, "demo_maps", "lines.csv")]
-failures = []
-
-
-def check(cond, what):
-    if not cond:
-        failures.append(what)
-        print("FAIL:", what)
-
-
-def run(cmd, expect_rc=0):
-    p = subprocess.run(cmd, capture_output=True, text=True, timeout=600)
-    check(p.returncode == expect_rc, f"{' '.join(cmd[1:4])}...: exit {p.returncode}, expected {expect_rc}; "
-                                     f"stderr={p.stderr.strip()[:400]}")
-    return p
 
 
 def same_file(a, b, what):
@@ -91,7 +78,4 @@ with tempfile.TemporaryDirectory() as tmp:
             v = subprocess.run(["fitsverify", "-q", out], capture_output=True, text=True)
             check(v.returncode == 0 and "verification OK" in v.stdout, f"{method}: fitsverify: {v.stdout.strip()}")
 
-if failures:
-    print(f"{len(failures)} failure(s)")
-    sys.exit(1)
-print("map --resume: OK")
+finish("map --resume: OK")

@@ -21,7 +21,6 @@ Usage: /usr/bin/python3 mpi_map_check.py ZEELINE ZEELINE_SERIAL MPIEXEC
 """
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 
@@ -30,28 +29,17 @@ from astropy.io import fits
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "common"))
 from damaged_fits import corrupt_row, fpack  # noqa: E402
+from script_checks import check, finish, run as run_checked  # noqa: E402
 
 ZEELINE, ZEELINE_SERIAL, MPIEXEC = sys.argv[1:4]
 SRC = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 LINE = ["--line", "FeI_6302", "--catalog", os.path.join(SRC, "demo_maps", "lines.csv")]
 # Shared-memory transport without the single-copy mechanism: works in containers that forbid ptrace.
 ENV = dict(os.environ, OMPI_MCA_btl_vader_single_copy_mechanism="none", OMPI_MCA_rmaps_base_oversubscribe="1")
-failures = []
-
-
-def check(cond, what):
-    if not cond:
-        failures.append(what)
-        print("FAIL:", what)
 
 
 def run(cmd, expect_rc=0):
-    p = subprocess.run(cmd, capture_output=True, text=True, env=ENV, timeout=600)
-    if p.returncode != expect_rc:
-        failures.append(f"{' '.join(cmd[:6])}...: exit {p.returncode}, expected {expect_rc}; "
-                        f"stderr={p.stderr.strip()[:600]}")
-        print("FAIL:", failures[-1])
-    return p
+    return run_checked(cmd, expect_rc, ENV)
 
 
 def mpirun(n, binary=ZEELINE):
@@ -178,7 +166,4 @@ with tempfile.TemporaryDirectory() as tmp:
         check(len(lines) == 1 and what in lines[0] and "MPI_ABORT" not in p.stderr,
               f"set-up failure under MPI ({what}): {p.stderr.strip()[:400]!r}")
 
-if failures:
-    print(f"{len(failures)} failure(s)")
-    sys.exit(1)
-print("mpi map checks passed")
+finish("mpi map checks passed")
