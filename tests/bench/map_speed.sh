@@ -67,7 +67,7 @@ if [[ " $PARTS " == *" wfa "* ]]; then
     [ -f "$BIG" ] || "$TOOL" reshape "$CUBE" "$BIG" xyls 9 > /dev/null
     floor=$("$TOOL" floor "$BIG" 1 | awk '{print $2}')
     REPEATS=1 best_run tb rb -- "$Z" map "$BIG" --line FeI_6302 --catalog "$CAT" --method wfa --threads 2 -o "$WORK/maps_big.fits" --overwrite
-    echo "big cube $(du -m "$BIG" | cut -f1) MiB (792 x 5940 px): floor $floor s, wfa $tb s (ratio $(echo "$tb / $floor" | bc -l | cut -c1-4)), peak RSS $rb MiB"
+    echo "big cube $(du -mL "$BIG" | cut -f1) MiB (792 x 5940 px): floor $floor s, wfa $tb s (ratio $(echo "$tb / $floor" | bc -l | cut -c1-4)), peak RSS $rb MiB"
     grep -E '^speed:' "$WORK/last_stdout.txt" || true
     rm -f "$WORK/maps_big.fits"
   fi
