@@ -367,19 +367,24 @@ template <class Body>
 void WriteCheckpoint(const std::string& path, const char (&magic)[8], const std::string& fingerprint,
                      const FieldMaps& m, Body body) {
   const std::string tmp = path + ".tmp";
-  {
-    std::ofstream out(tmp, std::ios::binary | std::ios::trunc);
-    if (!out) throw FitsError(path + ": cannot write the checkpoint file");
-    out.write(magic, 8);
-    const std::uint64_t flen = fingerprint.size();
-    out.write(reinterpret_cast<const char*>(&flen), sizeof flen);
-    out.write(fingerprint.data(), static_cast<std::streamsize>(flen));
-    const std::int64_t header[4] = {m.nx, m.ny, m.rows_done, kSlotCount};
-    out.write(reinterpret_cast<const char*>(header), sizeof header);
-    body(out);
-    if (!out) throw FitsError(path + ": writing the checkpoint failed (disk full?)");
+  try {
+    {
+      std::ofstream out(tmp, std::ios::binary | std::ios::trunc);
+      if (!out) throw FitsError(path + ": cannot write the checkpoint file");
+      out.write(magic, 8);
+      const std::uint64_t flen = fingerprint.size();
+      out.write(reinterpret_cast<const char*>(&flen), sizeof flen);
+      out.write(fingerprint.data(), static_cast<std::streamsize>(flen));
+      const std::int64_t header[4] = {m.nx, m.ny, m.rows_done, kSlotCount};
+      out.write(reinterpret_cast<const char*>(header), sizeof header);
+      body(out);
+      if (!out) throw FitsError(path + ": writing the checkpoint failed (disk full?)");
+    }
+    if (std::rename(tmp.c_str(), path.c_str()) != 0) throw FitsError(path + ": cannot rename the checkpoint into place");
+  } catch (...) {
+    std::remove(tmp.c_str());  // no half-written file left behind; the previous checkpoint stays valid
+    throw;
   }
-  if (std::rename(tmp.c_str(), path.c_str()) != 0) throw FitsError(path + ": cannot rename the checkpoint into place");
 }
 
 // Opens a checkpoint of one kind (a run with a sink or without) and reads its head into m.rows_done; false
