@@ -120,30 +120,23 @@ void DerivativeStencil::Prepare(const double* x, std::size_t n) {
   }
 }
 
-void DerivativeStencil::First(const double* f, double* out) const {
+template <int kOrder>
+void DerivativeStencil::Run(const double* f, double* out) const {
   if (n_ < 3) {
     for (std::size_t i = 0; i < n_; ++i) out[i] = std::nan("");
     return;
   }
   // Samples outside the five-point run: [0, five_begin) and [five_end, n) (all of them when the run is empty).
   const std::size_t head = five_end_ > five_begin_ ? five_begin_ : n_;
-  for (std::size_t i = 0; i < head; ++i) out[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
-  for (std::size_t i = std::max(head, five_end_); i < n_; ++i) out[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
-  const double* den = den1_.data();
-  for (std::size_t i = five_begin_; i < five_end_; ++i) out[i] = FivePointFirst(f, i, den[i]);
+  for (std::size_t i = 0; i < head; ++i) out[i] = Apply(points_[i], f, i, kOrder, den1_[i], den2_[i]);
+  for (std::size_t i = std::max(head, five_end_); i < n_; ++i)
+    out[i] = Apply(points_[i], f, i, kOrder, den1_[i], den2_[i]);
+  const double* den = kOrder == 1 ? den1_.data() : den2_.data();
+  for (std::size_t i = five_begin_; i < five_end_; ++i)
+    out[i] = kOrder == 1 ? FivePointFirst(f, i, den[i]) : FivePointSecond(f, i, den[i]);
 }
 
-void DerivativeStencil::Second(const double* f, double* out) const {
-  if (n_ < 3) {
-    for (std::size_t i = 0; i < n_; ++i) out[i] = std::nan("");
-    return;
-  }
-  // Samples outside the five-point run: [0, five_begin) and [five_end, n) (all of them when the run is empty).
-  const std::size_t head = five_end_ > five_begin_ ? five_begin_ : n_;
-  for (std::size_t i = 0; i < head; ++i) out[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
-  for (std::size_t i = std::max(head, five_end_); i < n_; ++i) out[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
-  const double* den = den2_.data();
-  for (std::size_t i = five_begin_; i < five_end_; ++i) out[i] = FivePointSecond(f, i, den[i]);
-}
+void DerivativeStencil::First(const double* f, double* out) const { Run<1>(f, out); }
+void DerivativeStencil::Second(const double* f, double* out) const { Run<2>(f, out); }
 
 }  // namespace zeeline

@@ -50,6 +50,8 @@ class DerivativeStencil {
   void Second(const double* f, double* out) const;
 
  private:
+  template <int kOrder>
+  void Run(const double* f, double* out) const;  // First (kOrder 1) and Second (2)
   std::size_t n_ = 0;
   std::size_t five_begin_ = 0, five_end_ = 0;  ///< [begin, end): every sample five-point (the fast loop)
   std::vector<double> den1_, den2_;            ///< five-point denominators 12 h and 12 h^2 per sample
