@@ -224,15 +224,12 @@ void RunMap(const MapArgs& a) {
     w.provenance.history.push_back("B_AZIM disambiguated (acute angle to the potential field), range [0, 360) deg");
   // The maps go into the file as their rows are finished (rank 0 writes under MPI); the file appears under
   // its name only when complete. With --resume it is built as OUTPUT.partial and kept for the next run.
+  // The file is created (or reopened) when the run begins; under MPI a failure there reaches every rank
+  // with its exit code (mpi_backend.cpp).
   std::unique_ptr<MapFileSink> sink;
-  try {
-    if (IsOutputRank())
-      sink = std::make_unique<MapFileSink>(a.output, MapHduLayout(info.nx, info.ny, o), info.spatial_wcs_header, w,
-                                           a.resume ? a.output + ".partial" : std::string());
-  } catch (...) {
-    failure = std::current_exception();
-  }
-  AgreeOnSetup(failure);  // e.g. the output directory is not writable (rank 0 alone knows)
+  if (IsOutputRank())
+    sink = std::make_unique<MapFileSink>(a.output, MapHduLayout(info.nx, info.ny, o), info.spatial_wcs_header, w,
+                                         a.resume ? a.output + ".partial" : std::string());
   run.sink = sink.get();
 
   FieldMaps maps;
@@ -250,8 +247,10 @@ void RunMap(const MapArgs& a) {
 
   const auto t_write = std::chrono::steady_clock::now();
   const long flagged = static_cast<long>(maps.flagged_pixels);
-  const std::size_t n_images = sink->Commit(maps);
+  // The checkpoint goes first: Commit rewrites B_AZIM of the partial file with the disambiguated azimuth, so
+  // if closing or renaming then fails, a later --resume must not read those rows back as raw azimuths.
   if (a.resume) fs::remove(run.checkpoint_path, ec);
+  const std::size_t n_images = sink->Commit(maps);
   const auto seconds = [](std::chrono::steady_clock::time_point t0, std::chrono::steady_clock::time_point t1) {
     return std::chrono::duration<double>(t1 - t0).count();
   };
@@ -271,7 +270,7 @@ void RunMap(const MapArgs& a) {
     std::printf("method per pixel: wfa %lld, cog %lld, split %lld, me %lld; pixels with QUALITY flags: %ld\n",
                 static_cast<long long>(maps.method_counts[1]), static_cast<long long>(maps.method_counts[2]),
                 static_cast<long long>(maps.method_counts[3]), static_cast<long long>(maps.method_counts[4]), flagged);
-    if (maps.method_counts[4] > 0 && !a.resume)  // iteration counts are not kept in checkpoints
+    if (maps.method_counts[4] > 0)  // the checkpoint keeps the iteration count too
       std::printf("me: %.1f iterations per pixel on average\n",
                   static_cast<double>(maps.me_iterations) / static_cast<double>(maps.method_counts[4]));
     if (!ranks_summary.empty()) std::printf("%s\n", ranks_summary.c_str());

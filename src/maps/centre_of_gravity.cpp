@@ -3,6 +3,7 @@
 #include <cmath>
 
 #include "zeeline/core/constants.hpp"
+#include "zeeline/core/errors.hpp"
 #include "zeeline/core/units.hpp"
 
 namespace zeeline {
@@ -21,6 +22,8 @@ double TrapezoidWeight(const double* l, std::size_t n, std::size_t i) {
 }  // namespace
 
 void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t n, const CentreOfGravityOptions& o) {
+  wavelength_nm = l;
+  this->n = n;
   weight.assign(n, 0.0);
   var_diff.assign(n, 0.0);
   var_mean.assign(n, 0.0);
@@ -40,6 +43,8 @@ CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const Cont
 CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                                       const CentreOfGravityOptions& o, CentreOfGravityWorkspace& work) {
   CentreOfGravityResult r;
+  if (s.wavelength_nm != work.wavelength_nm || s.n != work.n)
+    throw OptionError("CentreOfGravityEstimatePrepared: the pixel's wavelength grid is not the prepared one");
   if (s.n < 3 || !s.V) return r;
   const SampleRange win = work.window;
   const double* l = s.wavelength_nm;

@@ -1,5 +1,7 @@
 #include "zeeline/maps/field_maps.hpp"
 
+#include <fitsio.h>
+
 #include <algorithm>
 #include <chrono>
 #include <cmath>
@@ -863,7 +865,9 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   // thread). Declared after the blocks: a write in flight is waited for before they go away.
   FieldMaps blocks[2];
   int current = 0;
-  const bool overlap_writes = threads > 1 && !checkpoints;
+  // The write and the next tile's read then call cfitsio at the same time (on different files): only with a
+  // thread-safe cfitsio build (Debian's is; fits_is_reentrant says).
+  const bool overlap_writes = threads > 1 && !checkpoints && fits_is_reentrant() != 0;
   std::future<void> writing;
   auto wait_for_writing = [&] {
     if (!writing.valid()) return;

@@ -73,6 +73,8 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
                                           const WeakFieldOptions& o, WeakFieldWorkspace& work) {
   WeakFieldResult r;
   const WeakFieldGrid& grid = work.grid;
+  if (s.wavelength_nm != grid.wavelength_nm || s.n != grid.n)
+    throw OptionError("WeakFieldEstimatePrepared: the pixel's wavelength grid is not the prepared one");
   if (!grid.usable) return r;
   const SampleRange win = grid.window;
   const std::size_t a = grid.span_begin;

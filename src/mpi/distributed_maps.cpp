@@ -418,9 +418,11 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
   RecordingSink sink(run.sink);
   FieldMapRunOptions run0 = run;
   if (rank == 0 && run.sink) run0.sink = &sink;
+  std::exception_ptr setup_failure;  // rank 0
   auto fail = [&](const std::string& message) {
-    if (rank == 0 && sink.failure) std::rethrow_exception(sink.failure);
-    throw DistributedRunError(message);
+    DistributedRunError error(message);
+    if (rank == 0) error.origin = sink.failure ? sink.failure : setup_failure;
+    throw error;
   };
 
   // Setup on rank 0 (checkpoint, spectral layout); its outcome goes to every rank.
@@ -441,6 +443,7 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
     } catch (const std::exception& e) {
       status = kStatusFailed;
       message = e.what();
+      setup_failure = std::current_exception();
     }
   }
   BroadcastStatus(status, message);

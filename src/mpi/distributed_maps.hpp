@@ -57,11 +57,14 @@ struct DistributedMapReport {
   std::vector<long> pixels_per_rank;  ///< rank 0 only
 };
 
-/// A rank failed inside the task loop. Thrown on every rank with the same message (naming the rank, its
-/// rows and the cause), so that one rank reports it and all end cleanly.
+/// A rank failed inside the task loop or in rank 0's set-up. Thrown on every rank with the same message
+/// (naming the rank, its rows and the cause), so that one rank reports it and all end cleanly. On rank 0,
+/// `origin` is the exception that caused it when rank 0 met it (e.g. the map file could not be written), so
+/// that the caller can report its kind (exit code) to every rank.
 class DistributedRunError : public std::runtime_error {
  public:
   using std::runtime_error::runtime_error;
+  std::exception_ptr origin;
 };
 
 /// Runs on every rank of MPI_COMM_WORLD with the same arguments (each rank's own reader of the same cube).

@@ -31,28 +31,6 @@ void Stop() {
 
 void Abort(int code) { MPI_Abort(MPI_COMM_WORLD, code); }
 
-RunStatus ComputeMaps(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,
-                      long rows_per_task, FieldMaps& maps, std::string& summary) {
-  DistributedMapOptions d;
-  d.rows_per_task = rows_per_task;
-  DistributedMapReport report;
-  RunStatus status;
-  try {
-    status = ComputeFieldMapsDistributed(reader, options, run, d, maps, report);
-  } catch (const DistributedRunError& e) {
-    throw CollectiveError(e.what());
-  }
-  if (Parallel().rank == 0) {
-    summary = "mpi: " + std::to_string(report.ranks) + " ranks x " + std::to_string(ResolveThreadCount(options.threads)) +
-              " threads, " + std::to_string(report.tasks) + " tasks of " + std::to_string(report.max_rows_per_task) +
-              (report.min_rows_per_task < report.max_rows_per_task ? " down to " + std::to_string(report.min_rows_per_task) : "") +
-              " rows; pixels per rank";
-    for (long p : report.pixels_per_rank) summary += " " + std::to_string(p);
-    if (report.first_row > 0) summary += "; resumed at row " + std::to_string(report.first_row + 1);
-  }
-  return status;
-}
-
 bool AgreeFailure(int& code, std::string& message, int& reporter) {
   const int size = Parallel().size;
   const int mine = code != 0 ? Parallel().rank : size;
@@ -64,6 +42,43 @@ bool AgreeFailure(int& code, std::string& message, int& reporter) {
   message.resize(static_cast<std::size_t>(n));
   if (n > 0) MPI_Bcast(message.data(), static_cast<int>(n), MPI_CHAR, reporter, MPI_COMM_WORLD);
   return true;
+}
+
+RunStatus ComputeMaps(CubeReader& reader, const FieldMapOptions& options, const FieldMapRunOptions& run,
+                      long rows_per_task, FieldMaps& maps, std::string& summary) {
+  DistributedMapOptions d;
+  d.rows_per_task = rows_per_task;
+  DistributedMapReport report;
+  RunStatus status;
+  try {
+    status = ComputeFieldMapsDistributed(reader, options, run, d, maps, report);
+  } catch (const DistributedRunError& e) {
+    // Every rank is here. Rank 0's own failure (the map file not written: exit 3, ...) keeps its exit code
+    // on every rank (docs/cli.md), without MPI_Abort.
+    int code = 1;
+    std::string message = e.what();
+    if (e.origin) {
+      try {
+        std::rethrow_exception(e.origin);
+      } catch (const std::exception& origin) {
+        code = ExitCodeOf(origin);
+        message = origin.what();
+      } catch (...) {
+      }
+    }
+    int reporter = 0;
+    AgreeFailure(code, message, reporter);  // code != 0 on every rank: rank 0's code and message
+    throw AgreedError(code, message);
+  }
+  if (Parallel().rank == 0) {
+    summary = "mpi: " + std::to_string(report.ranks) + " ranks x " + std::to_string(ResolveThreadCount(options.threads)) +
+              " threads, " + std::to_string(report.tasks) + " tasks of " + std::to_string(report.max_rows_per_task) +
+              (report.min_rows_per_task < report.max_rows_per_task ? " down to " + std::to_string(report.min_rows_per_task) : "") +
+              " rows; pixels per rank";
+    for (long p : report.pixels_per_rank) summary += " " + std::to_string(p);
+    if (report.first_row > 0) summary += "; resumed at row " + std::to_string(report.first_row + 1);
+  }
+  return status;
 }
 
 #ifndef ZEELINE_MPIEXEC

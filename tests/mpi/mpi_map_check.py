@@ -132,6 +132,14 @@ with tempfile.TemporaryDirectory() as tmp:
         check(not os.path.exists(out), "failing rank: a map file was written")
         check(os.path.exists(out + ".checkpoint"), "failing rank: no checkpoint kept for --resume")
         shutil.copyfile(packed, bad)  # repaired: same size and name, so the checkpoint matches
+        # The partial map file gone: rank 0 cannot reopen it (an output error, exit 3 on every rank), one line,
+        # no MPI_Abort; the checkpoint stays.
+        os.rename(out + ".partial", out + ".partial.kept")
+        p = run([*mpirun(3), *args], expect_rc=3)
+        errors = [l for l in p.stderr.splitlines() if l.startswith("zeeline:")]
+        check(len(errors) == 1 and "partial" in errors[0] and "MPI_ABORT" not in p.stderr,
+              f"--resume without the partial file under MPI: {p.stderr.strip()[:400]!r}")
+        os.rename(out + ".partial.kept", out + ".partial")
         p = run([*mpirun(3), *args])
         check("resumed at row 13" in p.stdout, f"--resume under MPI: {p.stdout.strip()[-200:]!r}")
         check(not os.path.exists(out + ".checkpoint"), "--resume: checkpoint left after success")

@@ -41,7 +41,10 @@ CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const Cont
 /// once for many pixels on one grid, and scratch for the error propagation; one per thread.
 /// CentreOfGravityEstimatePrepared(s, noise, options, work) is bit for bit CentreOfGravityEstimate(s, noise,
 /// options) for a pixel on the grid of the last Prepare (same options); the latter prepares a workspace per call.
+/// A pixel on another grid (other wavelength pointer or length) throws OptionError.
 struct CentreOfGravityWorkspace {
+  const double* wavelength_nm = nullptr;     ///< the prepared grid (checked against each pixel's)
+  std::size_t n = 0;
   SampleRange window;
   std::vector<double> weight;                ///< trapezoid weight w_i per sample
   std::vector<double> var_diff, var_mean;    ///< per-sample variance terms (scratch)

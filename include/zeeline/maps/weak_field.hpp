@@ -125,7 +125,8 @@ WeakFieldResult WeakFieldEstimate(const PixelSpectrum& s, const ContinuumEstimat
 /// Works out work.grid for spectra on wavelength_nm[0..n) and these options.
 void PrepareWeakFieldGrid(const double* wavelength_nm, std::size_t n, const WeakFieldOptions& options,
                           WeakFieldWorkspace& work);
-/// The estimate for a pixel on the grid of the last PrepareWeakFieldGrid (same options).
+/// The estimate for a pixel on the grid of the last PrepareWeakFieldGrid (same options); a pixel on another
+/// grid (other wavelength pointer or length) throws OptionError.
 WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                           const WeakFieldOptions& options, WeakFieldWorkspace& work);
 
