@@ -61,6 +61,26 @@ void ExpectTileMatches(const CubeSpec& spec, const CubeInfo& info, const CubeTil
   (void)info;
 }
 
+// GatherBlock (the map runner's plane-by-plane gather, SSE2 on x86-64) gives Gather's values: blocks of 8
+// from pixel 0, and blocks of 5 from pixel 3 (starts inside a row, short last block).
+void ExpectBlockGatherMatches(const RawCubeTile& raw) {
+  const long rec = raw.n_stokes * raw.n_wavelength;
+  std::vector<double> one(static_cast<std::size_t>(rec));
+  for (const auto& [first, size] : {std::pair<long, long>{0, 8}, std::pair<long, long>{3, 5}}) {
+    std::vector<double> block(static_cast<std::size_t>(size * rec));
+    for (long p = first; p < raw.n_pixels(); p += size) {
+      const long count = std::min(size, raw.n_pixels() - p);
+      raw.GatherBlock(p, count, block.data());
+      for (long j = 0; j < count; ++j) {
+        raw.Gather(p + j, one.data());
+        for (long k = 0; k < rec; ++k)
+          ASSERT_EQ(block[static_cast<std::size_t>(j * rec + k)], one[static_cast<std::size_t>(k)])
+              << "GatherBlock(" << p << ", " << count << ") pixel " << p + j << " sample " << k;
+      }
+    }
+  }
+}
+
 // The same check for ReadRowsRaw + RawCubeTile::Gather (the map runner's path): rows [y_begin, y_begin + y_count).
 void ExpectRawRowsMatch(const CubeSpec& spec, CubeReader& reader, long y_begin, long y_count, bool spectral_reversed) {
   RawCubeTile raw;
@@ -78,6 +98,7 @@ void ExpectRawRowsMatch(const CubeSpec& spec, CubeReader& reader, long y_begin, 
   for (long p = 0; p < raw.n_pixels(); ++p)
     EXPECT_EQ(raw.Gather(p, t.data.data() + p * rec), 0u);  // all samples finite
   ExpectTileMatches(spec, reader.info(), t, spectral_reversed);
+  ExpectBlockGatherMatches(raw);
 }
 
 std::string OrderName(const std::array<test::Role, 4>& o) {
@@ -272,6 +293,8 @@ TEST(CubeReader, SubsetOfStokesAndVSignFlip) {
   raw.Gather(1, spectra.data());
   EXPECT_EQ(spectra[2], test::ExpectedValue(spec, 1, 0, 0, 2));
   EXPECT_EQ(spectra[static_cast<std::size_t>(spec.nw) + 2], -test::ExpectedValue(spec, 1, 0, 1, 2));
+  reader.ReadRowsRaw(0, info.ny, raw);
+  ExpectBlockGatherMatches(raw);  // V flipped, two Stokes planes
 }
 
 TEST(CubeReader, ExtensionByNumberAndByExtnameAndFirstImageByDefault) {
