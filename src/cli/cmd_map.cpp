@@ -4,8 +4,10 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <cstdint>
 #include <cstdio>
 #include <filesystem>
+#include <fstream>
 #include <iostream>
 #include <memory>
 #include <sstream>
@@ -134,6 +136,32 @@ MeLine ResolveExtraLine(const MapArgs& a, const std::string& spec, WavelengthFra
   return m;
 }
 
+// FNV-1a (64 bit) of the first and last 8 KiB of the cube's file, in hex: with the path and the size in the
+// --resume fingerprint, a cube rewritten in place (same name and size, other data) is not resumed with rows
+// of the old one; a row repaired in the middle (a damaged tile re-fetched) still is. "" when unreadable.
+std::string CubeEndsDigest(std::string path) {
+  namespace fs = std::filesystem;
+  std::error_code ec;
+  if (!fs::is_regular_file(path, ec) && !path.empty() && path.back() == ']')  // cube.fits[2]: the file
+    path = path.substr(0, path.rfind('['));
+  std::ifstream in(path, std::ios::binary);
+  const auto size = static_cast<std::streamoff>(fs::file_size(path, ec));
+  if (!in || ec) return "";
+  constexpr std::streamoff kEnd = 8192;
+  std::uint64_t h = 1469598103934665603ull;
+  auto hash = [&](std::streamoff from, std::streamoff count) {
+    std::string bytes(static_cast<std::size_t>(count), '\0');
+    in.seekg(from);
+    in.read(bytes.data(), count);
+    for (char c : bytes) h = (h ^ static_cast<unsigned char>(c)) * 1099511628211ull;
+  };
+  hash(0, std::min(size, kEnd));
+  if (size > kEnd) hash(std::max(kEnd, size - kEnd), std::min(kEnd, size - kEnd));
+  char buf[17];
+  std::snprintf(buf, sizeof buf, "%016llx", static_cast<unsigned long long>(h));
+  return buf;
+}
+
 std::string JoinArgs(int argc, char** argv) {
   std::string s;
   for (int i = 0; i < argc; ++i) s += (i ? " " : "") + std::string(argv[i]);
@@ -177,7 +205,8 @@ void RunMap(const MapArgs& a) {
   std::ostringstream fp;
   fp.precision(17);
   std::error_code ec;
-  fp << fs::absolute(a.cube, ec).string() << "|" << fs::file_size(fs::path(a.cube), ec) << "|" << a.method << "|"
+  fp << fs::absolute(a.cube, ec).string() << "|" << fs::file_size(fs::path(a.cube), ec) << "|"
+     << CubeEndsDigest(a.cube) << "|" << a.method << "|"
      << o.rest_wavelength_nm << "|" << o.pattern.g_eff << "|" << o.pattern.G << "|" << o.window_halfwidth_nm << "|"
      << o.continuum_exclude_nm << "|" << o.noise_rel << "|" << a.transverse << "|" << o.core_halfwidth_nm << "|"
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"

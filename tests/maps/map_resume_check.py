@@ -69,7 +69,16 @@ with tempfile.TemporaryDirectory() as tmp:
         left = sorted(os.listdir(out_dir))
         check(left == ["maps.fits.checkpoint", "maps.fits.partial", "ref.fits"],
               f"{method}: a failed --resume run should keep the checkpoint and the partial file only: {left}")
-        shutil.copyfile(packed, bad)  # repaired: same size and name, so the checkpoint matches
+        # A cube rewritten in place (same name and size, other content: here its DATE card, as when it is made
+        # again) must not be resumed with the old rows: the fingerprint holds a digest of the file's ends.
+        data = open(bad, "rb").read()
+        at = data.find(b"DATE    = '")
+        check(at >= 0, "no DATE card in the packed cube")
+        year = b"1999" if data[at + 11:at + 15] != b"1999" else b"2000"
+        open(bad, "wb").write(data[:at + 11] + year + data[at + 15:])
+        p = run(resume, expect_rc=1)
+        check("another input" in p.stderr, f"{method}: a rewritten cube was resumed: {p.stderr.strip()[:300]}")
+        shutil.copyfile(packed, bad)  # repaired: same size, name and ends, so the checkpoint matches
         run(resume)
         check(sorted(os.listdir(out_dir)) == ["maps.fits", "ref.fits"],
               f"{method}: after the resumed run: {sorted(os.listdir(out_dir))}")
