@@ -420,7 +420,12 @@ bool OpenCheckpoint(std::ifstream& in, const std::string& path, bool sink_kind, 
   return true;
 }
 
-void SaveCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+// The counts a checkpoint of a run with a sink holds (the sink keeps the rows, FieldMapSink::Sync).
+constexpr int kSinkCounts = 5 + 1 + 2 + 4 + 1;  // method_counts, me_iterations, flagged, usable, rejected, slots
+
+}  // namespace
+
+void SaveFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
   WriteCheckpoint(path, kCheckpointMagic, fingerprint, m, [&m](std::ofstream& out) {
     out.write(reinterpret_cast<const char*>(m.method_counts), sizeof m.method_counts);
     const std::size_t np = static_cast<std::size_t>(m.nx * m.rows_done);
@@ -430,7 +435,7 @@ void SaveCheckpointFile(const std::string& path, const std::string& fingerprint,
   });
 }
 
-bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
+bool LoadFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
   std::ifstream in;
   if (!OpenCheckpoint(in, path, false, fingerprint, m)) return false;
   in.read(reinterpret_cast<char*>(m.method_counts), sizeof m.method_counts);
@@ -442,10 +447,7 @@ bool LoadCheckpointFile(const std::string& path, const std::string& fingerprint,
   return true;
 }
 
-// The counts a checkpoint of a run with a sink holds (the sink keeps the rows, FieldMapSink::Sync).
-constexpr int kSinkCounts = 5 + 1 + 2 + 4 + 1;  // method_counts, me_iterations, flagged, usable, rejected, slots
-
-void SaveSinkCheckpointFile(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
+void SaveFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& m) {
   std::int64_t c[kSinkCounts];
   for (int k = 0; k < 5; ++k) c[k] = m.method_counts[k];
   c[5] = m.me_iterations;
@@ -457,7 +459,7 @@ void SaveSinkCheckpointFile(const std::string& path, const std::string& fingerpr
                   [&c](std::ofstream& out) { out.write(reinterpret_cast<const char*>(c), sizeof c); });
 }
 
-bool LoadSinkCheckpointFile(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
+bool LoadFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& m) {
   std::ifstream in;
   if (!OpenCheckpoint(in, path, true, fingerprint, m)) return false;
   std::int64_t c[kSinkCounts];
@@ -471,8 +473,6 @@ bool LoadSinkCheckpointFile(const std::string& path, const std::string& fingerpr
   m.slots_with_values = static_cast<std::uint32_t>(c[12]);
   return true;
 }
-
-}  // namespace
 
 void TallyRows(const FieldMaps& m, long row_begin, long rows, FieldMaps& into) {
   const std::size_t begin = static_cast<std::size_t>(row_begin * m.nx), end = begin + static_cast<std::size_t>(rows * m.nx);
@@ -518,14 +518,6 @@ std::vector<int> WholeMapSlots(const FieldMapOptions& o) {
   return {kSlotBlos, kSlotBtrans, kSlotBtransErr, kSlotAzimuth};
 }
 
-void SaveFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& maps) {
-  SaveSinkCheckpointFile(path, fingerprint, maps);
-}
-
-bool LoadFieldMapSinkCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& maps) {
-  return LoadSinkCheckpointFile(path, fingerprint, maps);
-}
-
 const char* MapSlotName(int slot) {
   static const char* kNames[kSlotCount] = {"B_TOTAL",  "B_TOTAL_SIGMA",  "B_INCL", "B_INCL_SIGMA", "B_AZIM",
                                            "B_AZIM_SIGMA", "B_LOS", "B_LOS_SIGMA", "B_TRANS", "B_TRANS_SIGMA",
@@ -568,14 +560,6 @@ std::string FieldMapOptions::Validate() const {
       m << "--disambiguate needs an azimuth map: method '" << ToString(method) << "' gives none";
   }
   return m.str();
-}
-
-void SaveFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, const FieldMaps& maps) {
-  SaveCheckpointFile(path, fingerprint, maps);
-}
-
-bool LoadFieldMapCheckpoint(const std::string& path, const std::string& fingerprint, FieldMaps& maps) {
-  return LoadCheckpointFile(path, fingerprint, maps);
 }
 
 FieldMapEngine::FieldMapEngine(const CubeInfo& info, const FieldMapOptions& o) : info_(info), o_(o) {
@@ -811,18 +795,18 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   const bool checkpoints = !run.checkpoint_path.empty();
   if (sink) {
     engine.InitSinkMaps(maps);
-    if (run.resume && checkpoints) LoadSinkCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+    if (run.resume && checkpoints) LoadFieldMapSinkCheckpoint(run.checkpoint_path, run.fingerprint, maps);
     sink->Begin(maps.rows_done, maps);
   } else {
     engine.InitMaps(info.ny, maps);
-    if (run.resume && checkpoints && LoadCheckpointFile(run.checkpoint_path, run.fingerprint, maps))
+    if (run.resume && checkpoints && LoadFieldMapCheckpoint(run.checkpoint_path, run.fingerprint, maps))
       TallyRows(maps, 0, maps.rows_done, maps);
   }
   auto save_checkpoint = [&] {
     if (!checkpoints) return;
-    if (!sink) return SaveCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+    if (!sink) return SaveFieldMapCheckpoint(run.checkpoint_path, run.fingerprint, maps);
     sink->Sync();  // the rows first, then the checkpoint that counts on them
-    SaveSinkCheckpointFile(run.checkpoint_path, run.fingerprint, maps);
+    SaveFieldMapSinkCheckpoint(run.checkpoint_path, run.fingerprint, maps);
   };
 
   using Clock = std::chrono::steady_clock;
