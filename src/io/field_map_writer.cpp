@@ -43,6 +43,17 @@ ImageHdu MakeMap(const std::string& extname, long nx, long ny, std::vector<doubl
 
 namespace {
 
+// The FITS BITPIX (cfitsio's *_IMG) of a pixel type.
+int BitpixOf(FitsPixelType type) {
+  switch (type) {
+    case FitsPixelType::kFloat64: return DOUBLE_IMG;
+    case FitsPixelType::kInt16: return SHORT_IMG;
+    case FitsPixelType::kInt32: return LONG_IMG;
+    case FitsPixelType::kFloat32: break;
+  }
+  return FLOAT_IMG;
+}
+
 bool ValidKeyword(const std::string& k) {
   if (k.empty() || k.size() > 8) return false;
   return std::all_of(k.begin(), k.end(), [](char c) {
@@ -169,13 +180,7 @@ struct Writer {
   void ImageHeader(const ImageHdu& h, const std::string& spatial_wcs) {
     hdu = "HDU '" + h.extname + "'";
     longstrn_written = false;
-    int bitpix = FLOAT_IMG;
-    switch (h.type) {
-      case FitsPixelType::kFloat32: bitpix = FLOAT_IMG; break;
-      case FitsPixelType::kFloat64: bitpix = DOUBLE_IMG; break;
-      case FitsPixelType::kInt16: bitpix = SHORT_IMG; break;
-      case FitsPixelType::kInt32: bitpix = LONG_IMG; break;
-    }
+    const int bitpix = BitpixOf(h.type);
     std::vector<long> naxes = h.naxes;
     int status = 0;
     fits_create_img(f, bitpix, static_cast<int>(naxes.size()), naxes.data(), &status);
@@ -307,7 +312,7 @@ struct FieldMapFileStream::State {
       fits_movabs_hdu(w.f, static_cast<int>(i) + 2, nullptr, &status);
       fits_read_key(w.f, TSTRING, "EXTNAME", name, nullptr, &status);
       fits_get_img_param(w.f, 2, &bitpix, &naxis, nax, &status);
-      const int want = h.type == FitsPixelType::kInt16 ? SHORT_IMG : h.type == FitsPixelType::kInt32 ? LONG_IMG : FLOAT_IMG;
+      const int want = BitpixOf(h.type);
       if (status || io_detail::Trim(name) != h.extname || naxis != 2 || nax[0] != h.naxes[0] || nax[1] != h.naxes[1] ||
           bitpix != want)
         w.Fail("HDU " + std::to_string(i + 1) + " is not the image " + h.extname + " this run writes" +
@@ -378,9 +383,8 @@ FieldMapFileStream::FieldMapFileStream(const std::string& path, std::vector<Imag
   const ImageHdu& last = st.layout.back();
   st.w.hdu = "HDU '" + last.extname + "'";
   const LONGLONG n = static_cast<LONGLONG>(last.naxes[0]) * last.naxes[1];
-  std::int32_t zero = 0;
-  fits_write_img(st.w.f, last.type == FitsPixelType::kInt16 ? TSHORT : last.type == FitsPixelType::kInt32 ? TINT : TFLOAT,
-                 n, 1, &zero, &status);
+  double zero = 0.0;  // cfitsio converts it to the image's type
+  fits_write_img(st.w.f, TDOUBLE, n, 1, &zero, &status);
   st.w.Check(status, "cannot reserve the image data");
 }
 
