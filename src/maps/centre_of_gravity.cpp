@@ -21,9 +21,9 @@ double TrapezoidWeight(const double* l, std::size_t n, std::size_t i) {
 }
 }  // namespace
 
-void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t n, const CentreOfGravityOptions& o) {
+void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t samples, const CentreOfGravityOptions& o) {
   wavelength_nm = l;
-  this->n = n;
+  n = samples;
   weight.assign(n, 0.0);
   var_diff.assign(n, 0.0);
   var_mean.assign(n, 0.0);
