@@ -6,11 +6,17 @@
 #include <wcslib/wcshdr.h>
 #include <wcslib/wcsutil.h>
 
-#include <algorithm>
-#include <cmath>
-#include <cstdlib>
-#include <limits>
+#include <fcntl.h>
 #include <sys/stat.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <cerrno>
+#include <cmath>
+#include <cstdint>
+#include <cstdlib>
+#include <cstring>
+#include <limits>
 #include <type_traits>
 #if defined(__SSE2__)
 #include <emmintrin.h>
@@ -93,8 +99,11 @@ struct CubeReader::Impl {
   long next_row = 0;
   RawCubeTile scratch;             // the cfitsio buffer of ReadRows
   std::vector<long> pixel_offset;  // per tile pixel: offset of its (x, y) in the cfitsio buffer
+  int data_fd = -1;                // the direct read's descriptor (-1: cfitsio reads the whole data unit)
+  LONGLONG data_start = 0;         // byte offset of the data unit in the file
 
   ~Impl() {
+    if (data_fd >= 0) ::close(data_fd);
     if (f) {
       int status = 0;
       fits_close_file(f, &status);
@@ -111,6 +120,8 @@ struct CubeReader::Impl {
   void Open(const std::string& path);
   void CheckSize(const std::array<long long, 4>& naxes);
   void ParseWcs(const std::array<long long, 4>& naxes);
+  void PrepareDirectRead(const std::string& root);
+  void ReadDirect(LONGLONG first, LONGLONG count, float* into, long y_begin, long y_count) const;
 
   template <class T>
   void Read(long y_begin, long y_count, CubeTileT<T>& tile);
@@ -120,12 +131,13 @@ struct CubeReader::Impl {
 void CubeReader::Impl::Open(const std::string& path) {
   info.path = path;
   // A missing file gets a plain message (cfitsio's is generic).
+  std::string r;
   {
     char root[FLEN_FILENAME] = {0};
     int st = 0;
     fits_parse_rootname(const_cast<char*>(path.c_str()), root, &st);
     struct stat sb {};
-    const std::string r = Trim(root);
+    r = st == 0 ? Trim(root) : std::string();
     if (st == 0 && !r.empty() && r.find("://") == std::string::npos) {
       if (::stat(r.c_str(), &sb) != 0) throw FitsError("'" + path + "': no such file");
       if (S_ISDIR(sb.st_mode)) throw FitsError("'" + path + "': is a directory, not a FITS file");
@@ -164,6 +176,59 @@ void CubeReader::Impl::Open(const std::string& path) {
   }
   CheckSize(naxes);
   ParseWcs(naxes);
+  if (options.direct_read && !r.empty()) PrepareDirectRead(r);
+}
+
+// The direct read (CubeReadOptions::direct_read) takes only what needs no conversion but the byte order: a
+// float32 image (BITPIX -32, FITS standard 4.0 sect. 5.3: IEEE-754 big-endian) with BSCALE 1 and BZERO 0, not
+// tile-compressed, that cfitsio reads from the disk file itself (its "file://" driver: not a gzipped file
+// uncompressed into memory, not an image section or filtered copy), whose size on disk is the size cfitsio
+// found. Anything else stays with cfitsio; so does every header and WCS read.
+void CubeReader::Impl::PrepareDirectRead(const std::string& root) {
+  if (info.bitpix != -32) return;
+  int status = 0;
+  if (fits_is_compressed_image(f, &status) || status) return;
+  char urltype[FLEN_FILENAME] = {0};
+  if (fits_url_type(f, urltype, &status) || std::strcmp(urltype, "file://") != 0) return;
+  double bscale = 1.0, bzero = 0.0;
+  int st = 0;
+  if (fits_read_key(f, TDOUBLE, "BSCALE", &bscale, nullptr, &st) != 0) bscale = 1.0;
+  st = 0;
+  if (fits_read_key(f, TDOUBLE, "BZERO", &bzero, nullptr, &st) != 0) bzero = 0.0;
+  fits_clear_errmsg();
+  if (bscale != 1.0 || bzero != 0.0) return;
+  LONGLONG headstart = 0, datastart = 0, dataend = 0;
+  if (fits_get_hduaddrll(f, &headstart, &datastart, &dataend, &status)) return;
+  const int fd = ::open(root.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) return;
+  struct stat sb {};
+  if (::fstat(fd, &sb) != 0 || !S_ISREG(sb.st_mode) || static_cast<LONGLONG>(sb.st_size) != f->Fptr->logfilesize) {
+    ::close(fd);
+    return;
+  }
+  data_fd = fd;
+  data_start = datastart;
+}
+
+// Samples first .. first + count - 1 of the data unit (0-based, FITS order) as the file stores them.
+void CubeReader::Impl::ReadDirect(LONGLONG first, LONGLONG count, float* into, long y_begin, long y_count) const {
+  char* to = reinterpret_cast<char*>(into);
+  std::size_t left = static_cast<std::size_t>(count) * sizeof(float);
+  off_t at = static_cast<off_t>(data_start + first * static_cast<LONGLONG>(sizeof(float)));
+  while (left > 0) {
+    const ssize_t got = ::pread(data_fd, to, left, at);
+    if (got < 0 && errno == EINTR) continue;
+    if (got <= 0) {
+      const std::string why = got < 0 ? std::string(std::strerror(errno))
+                                      : "the file ends at byte " + std::to_string(static_cast<long long>(at)) +
+                                            ", before the data unit does (truncated or replaced while being read?)";
+      Fail("cannot read rows " + std::to_string(y_begin + 1) + ".." + std::to_string(y_begin + y_count) +
+           " of the data unit: " + why);
+    }
+    to += got;
+    left -= static_cast<std::size_t>(got);
+    at += got;
+  }
 }
 
 void CubeReader::Impl::CheckSize(const std::array<long long, 4>& naxes) {
@@ -426,6 +491,7 @@ void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, Raw
   const double nul_d = info.bitpix > 0 ? std::numeric_limits<double>::quiet_NaN() : 0.0;
   void* nulval = tile.as_float ? const_cast<float*>(&nul_f) : static_cast<void*>(const_cast<double*>(&nul_d));
   int anynul = 0, status = 0;
+  tile.file_byte_order = false;
   // The rows of a tile are contiguous runs of the file for every fixed index of the axes after y (all axes
   // before y are read whole): one fits_read_img per run, a few large reads that cfitsio passes straight
   // to the file, where fits_read_subset would copy line by line through its record buffers (~3x slower).
@@ -447,7 +513,12 @@ void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, Raw
         plane *= info.axes[i].size;
       }
       void* into = static_cast<char*>(buffer) + static_cast<std::size_t>(j) * static_cast<std::size_t>(run) * elem;
-      fits_read_img(f, datatype, first + 1, run, nulval, into, &anynul, &status);
+      if (data_fd >= 0 && tile.as_float) {  // float32 as stored: Gather swaps the bytes as it converts
+        ReadDirect(first, run, static_cast<float*>(into), y_begin, y_count);
+        tile.file_byte_order = true;
+      } else {
+        fits_read_img(f, datatype, first + 1, run, nulval, into, &anynul, &status);
+      }
     }
   } else {
     fits_read_subset(f, datatype, blc, trc, inc, nulval, buffer, &anynul, &status);
@@ -471,7 +542,24 @@ void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, Raw
 }
 
 namespace {
-template <class S>
+// A sample as a double: as stored, or (kSwap) a big-endian float32 of the file, byte-swapped first. The
+// swap moves bytes only, so NaN payloads, -0 and subnormals arrive as cfitsio's swap gives them.
+template <bool kSwap, class S>
+inline double Sample(const S* p) {
+  if constexpr (kSwap) {
+    static_assert(std::is_same_v<S, float>, "only float32 samples are read in the file's byte order");
+    std::uint32_t u;
+    std::memcpy(&u, p, sizeof u);
+    u = __builtin_bswap32(u);
+    float v;
+    std::memcpy(&v, &u, sizeof v);
+    return static_cast<double>(v);
+  } else {
+    return static_cast<double>(*p);
+  }
+}
+
+template <class S, bool kSwap = false>
 void GatherFrom(const RawCubeTile& t, const S* data, long pixel, double* out) {
   const long nw = t.n_wavelength;
   const long x = pixel % t.nx, yy = pixel / t.nx;
@@ -483,21 +571,38 @@ void GatherFrom(const RawCubeTile& t, const S* data, long pixel, double* out) {
     double* d = out + s * nw;
     if (s == t.v_index && t.v_sign != 1.0) {
       const double sign = t.v_sign;
-      for (long k = 0; k < nw; ++k) d[k] = static_cast<double>(src[k * sl]) * sign;
+      for (long k = 0; k < nw; ++k) d[k] = Sample<kSwap>(src + k * sl) * sign;
     } else if (sl == 1) {  // x * 1.0 == x: no multiplication for the other parameters
-      for (long k = 0; k < nw; ++k) d[k] = static_cast<double>(src[k]);
+      for (long k = 0; k < nw; ++k) d[k] = Sample<kSwap>(src + k);
     } else {
-      for (long k = 0; k < nw; ++k) d[k] = static_cast<double>(src[k * sl]);
+      for (long k = 0; k < nw; ++k) d[k] = Sample<kSwap>(src + k * sl);
     }
   }
 }
 
 #if defined(__SSE2__)
+// The bytes of each 32-bit lane reversed (SSE2 has no byte shuffle): 16-bit halves swapped, then the bytes
+// inside each half.
+inline __m128 ByteSwap32(__m128 v) {
+  __m128i x = _mm_castps_si128(v);
+  x = _mm_shufflehi_epi16(_mm_shufflelo_epi16(x, 0xB1), 0xB1);
+  x = _mm_or_si128(_mm_slli_epi16(x, 8), _mm_srli_epi16(x, 8));
+  return _mm_castsi128_ps(x);
+}
+
+template <bool kSwap>
+inline __m128 LoadFloats(const float* p) {
+  const __m128 v = _mm_loadu_ps(p);
+  if constexpr (kSwap) return ByteSwap32(v);
+  else return v;
+}
+
 // Planes a and b (consecutive wavelengths) at 8 neighbouring pixels into pixel j's pair d[j * record + 0, 1]:
 // converted (exactly, as static_cast) and interleaved so that each pixel gets one 16-byte store.
+template <bool kSwap>
 inline void GatherPlanePairOf8(const float* a, const float* b, double* d, long record) {
-  const __m128 a0 = _mm_loadu_ps(a), a1 = _mm_loadu_ps(a + 4);
-  const __m128 b0 = _mm_loadu_ps(b), b1 = _mm_loadu_ps(b + 4);
+  const __m128 a0 = LoadFloats<kSwap>(a), a1 = LoadFloats<kSwap>(a + 4);
+  const __m128 b0 = LoadFloats<kSwap>(b), b1 = LoadFloats<kSwap>(b + 4);
   const __m128 as[2] = {a0, a1}, bs[2] = {b0, b1};
   for (int h = 0; h < 2; ++h) {
     const __m128d lo_a = _mm_cvtps_pd(as[h]), lo_b = _mm_cvtps_pd(bs[h]);
@@ -514,12 +619,12 @@ inline void GatherPlanePairOf8(const float* a, const float* b, double* d, long r
 // Pixels first .. first + count - 1 into out[j * record + s * n_wavelength + w]. With the spectral axis not the
 // fastest, plane by plane: each (Stokes, wavelength) plane is read at `count` neighbouring pixels (one or two
 // cache lines and pages when x is the fastest axis) instead of each pixel reading one sample from every plane.
-template <class S>
+template <class S, bool kSwap = false>
 void GatherBlockFrom(const RawCubeTile& t, const S* data, long first, long count, double* out) {
   const long nw = t.n_wavelength;
   const long record = static_cast<long>(t.n_stokes) * nw;
   if (t.stride_spectral == 1 || count == 1) {
-    for (long j = 0; j < count; ++j) GatherFrom(t, data, first + j, out + j * record);
+    for (long j = 0; j < count; ++j) GatherFrom<S, kSwap>(t, data, first + j, out + j * record);
     return;
   }
   const long sl = t.spectral_reversed ? -t.stride_spectral : t.stride_spectral;
@@ -546,7 +651,7 @@ void GatherBlockFrom(const RawCubeTile& t, const S* data, long first, long count
             // ask for the lines the block after next will read.
             __builtin_prefetch(a + 32);
             __builtin_prefetch(a + sl + 32);
-            GatherPlanePairOf8(a, a + sl, block + s * nw + k, record);
+            GatherPlanePairOf8<kSwap>(a, a + sl, block + s * nw + k, record);
           }
         }
       }
@@ -555,18 +660,18 @@ void GatherBlockFrom(const RawCubeTile& t, const S* data, long first, long count
         const S* plane = data + s * t.stride_stokes + first_k + k * sl;
         double* d = block + s * nw + k;
         if (sign != 1.0) {
-          for (long j = 0; j < m; ++j) d[j * record] = static_cast<double>(plane[offset[j]]) * sign;
+          for (long j = 0; j < m; ++j) d[j * record] = Sample<kSwap>(plane + offset[j]) * sign;
         } else if (contiguous && m == 8) {  // the map's block: unrolled
           const S* src = plane + offset[0];
           // Hundreds of planes are read side by side, more streams than the hardware prefetcher follows:
           // ask for the line the block after next will read.
           __builtin_prefetch(src + 128 / sizeof(S));
-          for (long j = 0; j < 8; ++j) d[j * record] = static_cast<double>(src[j]);
+          for (long j = 0; j < 8; ++j) d[j * record] = Sample<kSwap>(src + j);
         } else if (contiguous) {  // x * 1.0 == x: no multiplication for the other parameters
           const S* src = plane + offset[0];
-          for (long j = 0; j < m; ++j) d[j * record] = static_cast<double>(src[j]);
+          for (long j = 0; j < m; ++j) d[j * record] = Sample<kSwap>(src + j);
         } else {
-          for (long j = 0; j < m; ++j) d[j * record] = static_cast<double>(plane[offset[j]]);
+          for (long j = 0; j < m; ++j) d[j * record] = Sample<kSwap>(plane + offset[j]);
         }
       }
     }
@@ -575,7 +680,8 @@ void GatherBlockFrom(const RawCubeTile& t, const S* data, long first, long count
 }  // namespace
 
 void RawCubeTile::GatherBlock(long first_pixel, long count, double* out) const {
-  if (as_float) GatherBlockFrom(*this, data_f.data(), first_pixel, count, out);
+  if (as_float && file_byte_order) GatherBlockFrom<float, true>(*this, data_f.data(), first_pixel, count, out);
+  else if (as_float) GatherBlockFrom(*this, data_f.data(), first_pixel, count, out);
   else GatherBlockFrom(*this, data_d.data(), first_pixel, count, out);
 }
 
@@ -588,13 +694,23 @@ std::uint32_t RawCubeTile::Gather(long pixel, double* out) const {
 }
 
 void RawCubeTile::GatherSamples(long pixel, double* out) const {
-  if (as_float) GatherFrom(*this, data_f.data(), pixel, out);
+  if (as_float && file_byte_order) GatherFrom<float, true>(*this, data_f.data(), pixel, out);
+  else if (as_float) GatherFrom(*this, data_f.data(), pixel, out);
   else GatherFrom(*this, data_d.data(), pixel, out);
 }
 
 template <class T>
 void CubeReader::Impl::Read(long y_begin, long y_count, CubeTileT<T>& tile) {
   ReadRaw(y_begin, y_count, std::is_same_v<T, float>, scratch);
+  if (scratch.file_byte_order) {  // the direct read: to native floats in place before the reorder
+    for (float& v : scratch.data_f) {
+      std::uint32_t u;
+      std::memcpy(&u, &v, sizeof u);
+      u = __builtin_bswap32(u);
+      std::memcpy(&v, &u, sizeof v);
+    }
+    scratch.file_byte_order = false;
+  }
   const int ns = info.n_stokes();
   const long nw = info.n_wavelength();
   const long nx = info.nx;
@@ -676,6 +792,8 @@ CubeReader::CubeReader(CubeReader&&) noexcept = default;
 CubeReader& CubeReader::operator=(CubeReader&&) noexcept = default;
 
 const CubeInfo& CubeReader::info() const { return impl_->info; }
+
+bool CubeReader::reads_data_directly() const { return impl_->data_fd >= 0; }
 
 long CubeReader::rows_per_tile() const {
   const CubeInfo& i = impl_->info;

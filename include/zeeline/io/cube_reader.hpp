@@ -57,6 +57,11 @@ struct CubeReadOptions {
   bool scan_statistics = false;
   /// Threads used to reorder a tile into pixel-major order (0 = all available, OpenMP).
   int threads = 0;
+  /// Read the data unit of an uncompressed, unscaled float32 cube on a local disk with pread() into the tile
+  /// (the file's bytes, swapped when gathered: one copy less than cfitsio's read and byte swap). Everything
+  /// else (compressed or gzipped files, BSCALE/BZERO, other BITPIX, image sections, short runs) is read by
+  /// cfitsio either way. false = cfitsio always.
+  bool direct_read = true;
 
   /// Empty when valid, otherwise a message naming the field, its value and the allowed range.
   std::string Validate() const;
@@ -132,6 +137,7 @@ struct RawCubeTile {
   int n_stokes = 0;
   long n_wavelength = 0;
   bool as_float = true;        ///< samples in data_f (else data_d)
+  bool file_byte_order = false;  ///< data_f holds the file's big-endian float32 bytes (direct read); Gather swaps
   std::vector<float> data_f;
   std::vector<double> data_d;
   long stride_x = 0, stride_y = 0, stride_spectral = 0, stride_stokes = 0;  ///< in samples
@@ -163,6 +169,9 @@ class CubeReader {
   const CubeInfo& info() const;
   /// Rows per tile chosen from CubeReadOptions::max_tile_mib.
   long rows_per_tile() const;
+  /// True when long runs of the data unit are read with pread() (CubeReadOptions::direct_read and a plain
+  /// float32 file), false when cfitsio reads all of it.
+  bool reads_data_directly() const;
 
   /// Reads rows [y_begin, y_begin + y_count) into `tile` (buffers are reused).
   template <class T>
