@@ -6,6 +6,14 @@
 #include "zeeline/core/constants.hpp"
 
 namespace zeeline {
+namespace {
+// hypot(x, y) as sqrt(x^2 + y^2) where neither square can overflow or underflow to no effect (within about an
+// ulp of std::hypot, at a fraction of its cost); std::hypot elsewhere (and for NaN, Inf).
+double Hypot(double x, double y) {
+  const double m = std::max(std::fabs(x), std::fabs(y));
+  return m > 1e-150 && m < 1e150 ? std::sqrt(x * x + y * y) : std::hypot(x, y);
+}
+}  // namespace
 
 FieldVector ComposeFieldVector(double blos, double blos_err, double bt, double bt_err, double bt_sq_err) {
   FieldVector v;
@@ -19,14 +27,14 @@ FieldVector ComposeFieldVector(double blos, double blos_err, double bt, double b
     t_hi = bt + 2.0 * bt_err;
   }
   const double l = std::fabs(blos), l_lo = std::max(l - 2.0 * blos_err, 0.0), l_hi = l + 2.0 * blos_err;
-  v.field_gauss = std::hypot(blos, bt);
+  v.field_gauss = Hypot(blos, bt);
   v.field_err_gauss =
-      0.25 * std::hypot(std::hypot(l, t_hi) - std::hypot(l, t_lo), std::hypot(l_hi, bt) - std::hypot(l_lo, bt));
+      0.25 * Hypot(Hypot(l, t_hi) - Hypot(l, t_lo), Hypot(l_hi, bt) - Hypot(l_lo, bt));
   if (v.field_gauss > 0.0) {
     v.inclination_deg = std::atan2(bt, blos) * kRadToDeg;
     auto angle = [](double ll, double tt) { return std::atan2(tt, ll); };  // from the line-of-sight axis
     v.inclination_err_deg =
-        0.25 * std::hypot(angle(l, t_hi) - angle(l, t_lo), angle(l_lo, bt) - angle(l_hi, bt)) * kRadToDeg;
+        0.25 * Hypot(angle(l, t_hi) - angle(l, t_lo), angle(l_lo, bt) - angle(l_hi, bt)) * kRadToDeg;
   } else {
     v.inclination_deg = v.inclination_err_deg = std::nan("");
   }

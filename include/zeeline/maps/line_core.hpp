@@ -13,10 +13,11 @@
 //   x_h^2 = w^2 ln(2 + eta0),       I''(l_c) = 2 d / (w^2 (1 + eta0)),
 //   R := I''(l_c) x_h^2 / (2 d) = ln(2 + eta0) / (1 + eta0)        (derived here from the model above)
 // R falls monotonically from ln 2 (optically thin) towards 0 (saturated), so R measured on the data gives the
-// saturation index u (the model's eta0) by bisection, then w = x_h / sqrt(ln(2 + u)) and the surface source
-// function S0 = I_min - d / u. A Voigt core with damping makes u come out lower than the true eta0 (by about
-// 2-3x at eta0 = 10-30 with damping 0.15, measured on the synthesis of src/synth), which the saturation
-// correction of the weak-field transverse field tolerates (weak_field.hpp, tests/maps).
+// saturation index u (the model's eta0) by inverting R (a tabulated start and a Newton step), then
+// w = x_h / sqrt(ln(2 + u)) and the surface source function S0 = I_min - d / u. A Voigt core with damping
+// makes u come out lower than the true eta0 (by about 2-3x at eta0 = 10-30 with damping 0.15, measured on
+// the synthesis of src/synth), which the saturation correction of the weak-field transverse field tolerates
+// (weak_field.hpp, tests/maps).
 // The curvature is a least-squares parabola through the 5-9 samples around the minimum (the same for
 // emission lines with the signs reversed); emission lines are treated as optically thin (u = 0).
 // Requires: the line resolved by >= 5 samples across its core and its depth well above the noise; otherwise
