@@ -133,5 +133,77 @@ TEST(FieldMapEngine, RefusesRowsOutsideItsMapsAndWorkWithoutALayout) {
   EXPECT_NO_THROW(engine.Compute(tile, part, 2));
 }
 
+
+// The layout (fit window from the mean I profile, continuum samples, the median level of the sanity ceiling)
+// is computed on the map's threads in blocks of pixels: it must not depend on their number. 96 x 60 pixels
+// (more than one chunk of 4096 pixels for the ordered sum), with a NaN pixel and a pixel of absurd level that
+// stay out of it; the median level is checked against its definition (data_sanity.hpp: the median of |I| over
+// the samples of the pixels inside the type range, the upper middle element when their number is even).
+TEST(FieldMapEngine, LayoutDoesNotDependOnTheThreadCount) {
+  test::TempDir dir;
+  const std::string path = dir.File("wide.fits");
+  constexpr long nx = 96, ny = 60, nw = 41;
+  const ZeemanPattern p = ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0"), LandeOptions{2.0, 1.0});
+  std::vector<testing::Spectra> pixels;
+  std::mt19937_64 rng(23);
+  for (long k = 0; k < nx * ny; ++k) {
+    testing::ThinLine l;
+    l.rest_nm = kRest;
+    l.field_gauss = 50.0 + static_cast<double>(k % 97) * 10.0;
+    l.inclination_deg = 30.0;
+    l.azimuth_deg = 40.0;
+    auto sp = testing::MakeThinLine(l, p, testing::Grid(kRest, 0.03, nw));
+    testing::AddNoise(sp, 1e-3, rng);
+    for (double& v : sp.I) v *= 1.0 + 0.3 * static_cast<double>(k % 13) / 13.0;  // levels that differ
+    pixels.push_back(std::move(sp));
+  }
+  for (double& v : pixels[200].I) v = 1e30;  // far above the level ceiling (median x 10^kAbsurdOrders)
+  pixels[4100].I[5] = std::nan("");
+  test::CubeSpec c;
+  c.na = nx;
+  c.nb = ny;
+  c.nw = nw;
+  c.bitpix = -64;
+  c.spectral_cunit = "nm";
+  c.spectral_crval = kRest - 0.03;
+  c.spectral_cdelt = 0.06 / (nw - 1);
+  c.value = [&pixels](long a, long b, long s, long w) {
+    const auto& px = pixels[static_cast<std::size_t>(b * nx + a)];
+    const std::vector<double>* v[4] = {&px.I, &px.Q, &px.U, &px.V};
+    return (*v[s])[static_cast<std::size_t>(w)];
+  };
+  test::WriteCube(path, c);
+  // The median level by its definition: |I| of every finite sample of the pixels without NaN/Inf (the absurd
+  // pixel is inside the float64 type range, so it counts here; it is left out of the mean profile only).
+  std::vector<double> levels;
+  for (long k = 0; k < nx * ny; ++k) {
+    if (k == 4100) continue;
+    for (double v : pixels[static_cast<std::size_t>(k)].I) levels.push_back(std::fabs(v));
+  }
+  std::nth_element(levels.begin(), levels.begin() + static_cast<long>(levels.size() / 2), levels.end());
+  const double median = levels[levels.size() / 2];
+
+  CubeReadOptions read;
+  read.max_tile_mib = 64.0;  // the whole cube is the first tile
+  std::vector<SpectralLayout> layouts;
+  for (int threads : {1, 2, 3}) {
+    FieldMapOptions o = Options(MapMethod::kWeakField);
+    o.threads = threads;
+    CubeReader reader(path, read);
+    ASSERT_EQ(reader.rows_per_tile(), ny);
+    FieldMapEngine engine(reader.info(), o);
+    engine.ChooseLayout(reader);
+    layouts.push_back(engine.layout());
+    EXPECT_EQ(engine.layout().median_level, median) << threads << " threads";
+  }
+  for (std::size_t i = 1; i < layouts.size(); ++i) {
+    EXPECT_EQ(std::memcmp(&layouts[i].window_halfwidth_nm, &layouts[0].window_halfwidth_nm, sizeof(double)), 0)
+        << layouts[i].window_halfwidth_nm << " vs " << layouts[0].window_halfwidth_nm;
+    EXPECT_EQ(layouts[i].continuum, layouts[0].continuum);
+    EXPECT_EQ(layouts[i].median_level, layouts[0].median_level);
+  }
+  EXPECT_GT(layouts[0].window_halfwidth_nm, 0.0);
+  EXPECT_FALSE(layouts[0].continuum.empty());
+}
 }  // namespace
 }  // namespace zeeline
