@@ -25,8 +25,6 @@ void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t samples, con
   wavelength_nm = l;
   n = samples;
   weight.assign(n, 0.0);
-  var_diff.assign(n, 0.0);
-  var_mean.assign(n, 0.0);
   window = SampleRange{};
   if (n < 3) return;
   window = WindowRange(l, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
@@ -73,24 +71,18 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
 
   // Propagation: d l_+/d I_i = -(l_i - l_+) w_i / dp, d l_+/d V_i = -(l_i - l_+) w_i / dp;
   //              d l_-/d I_i = -(l_i - l_-) w_i / dm, d l_-/d V_i = +(l_i - l_-) w_i / dm.
-  // Per-sample terms first (no reduction: vectorised), then their sums in sample order.
+  // Each sample's terms are added in sample order as they are formed.
   const double cp = r.centroid_plus_nm, cm = r.centroid_minus_nm;
   const double nI = noise.noise_I, nV = noise.noise_V;
-  double* const td = work.var_diff.data();
-  double* const tm = work.var_mean.data();
+  double var_diff = 0.0, var_mean = 0.0;
   for (std::size_t i = win.begin; i < win.end; ++i) {
     const double w = weight[i];
     const double gp = -(l[i] - cp) * w / dp;
     const double gm = -(l[i] - cm) * w / dm;
     const double dI_diff = gp - gm, dV_diff = gp + gm;
     const double dI_mean = 0.5 * (gp + gm), dV_mean = 0.5 * (gp - gm);
-    td[i] = dI_diff * dI_diff * nI * nI + dV_diff * dV_diff * nV * nV;
-    tm[i] = dI_mean * dI_mean * nI * nI + dV_mean * dV_mean * nV * nV;
-  }
-  double var_diff = 0.0, var_mean = 0.0;
-  for (std::size_t i = win.begin; i < win.end; ++i) {
-    var_diff += td[i];
-    var_mean += tm[i];
+    var_diff += dI_diff * dI_diff * nI * nI + dV_diff * dV_diff * nV * nV;
+    var_mean += dI_mean * dI_mean * nI * nI + dV_mean * dV_mean * nV * nV;
   }
   r.blos_err_gauss = std::sqrt(var_diff) / (2.0 * C * std::fabs(o.g_eff));
   r.vlos_err_kms = c_kms * std::sqrt(var_mean) / o.rest_wavelength_nm;

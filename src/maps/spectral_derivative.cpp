@@ -139,4 +139,24 @@ void DerivativeStencil::Run(const double* f, double* out) const {
 void DerivativeStencil::First(const double* f, double* out) const { Run<1>(f, out); }
 void DerivativeStencil::Second(const double* f, double* out) const { Run<2>(f, out); }
 
+void DerivativeStencil::FirstAndSecond(const double* f, double* first, double* second) const {
+  if (n_ < 3) {
+    for (std::size_t i = 0; i < n_; ++i) first[i] = second[i] = std::nan("");
+    return;
+  }
+  const std::size_t head = five_end_ > five_begin_ ? five_begin_ : n_;
+  auto edge = [&](std::size_t i) {
+    first[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
+    second[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
+  };
+  for (std::size_t i = 0; i < head; ++i) edge(i);
+  for (std::size_t i = std::max(head, five_end_); i < n_; ++i) edge(i);
+  const double* const den1 = den1_.data();
+  const double* const den2 = den2_.data();
+  for (std::size_t i = five_begin_; i < five_end_; ++i) {
+    first[i] = FivePointFirst(f, i, den1[i]);
+    second[i] = FivePointSecond(f, i, den2[i]);
+  }
+}
+
 }  // namespace zeeline

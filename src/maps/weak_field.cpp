@@ -82,7 +82,10 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
   double* const d2 = work.d2.data();
   const double* const I = s.I;
   const double* const l = s.wavelength_nm;
-  grid.stencil.First(I + a, d1 + a);
+  // Both derivatives in one pass when the transverse field is wanted (below), else the first alone.
+  const bool transverse = s.Q && s.U && std::fabs(o.G) > 1e-9;
+  if (transverse) grid.stencil.FirstAndSecond(I + a, d1 + a, d2 + a);
+  else grid.stencil.First(I + a, d1 + a);
   const double C = grid.lorentz_nm_per_gauss;  // nm per gauss
   const double h = grid.step_nm;
 
@@ -133,8 +136,7 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
   }
 
   // ---- B_T and azimuth from Q, U
-  if (s.Q && s.U && std::fabs(o.G) > 1e-9) {
-    grid.stencil.Second(I + a, d2 + a);
+  if (transverse) {
     const double core = o.core_halfwidth_nm > 0.0 ? o.core_halfwidth_nm : 1e300;
     const double wing_start =
         o.wing_start_nm > 0.0 ? o.wing_start_nm : (r.core.ok ? 4.8 * r.core.doppler_width_nm : 1e300);
@@ -239,16 +241,25 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
       const double var_q = noise.noise_Q * noise.noise_Q + aq * aq * mean_xn2;
       const double var_u = noise.noise_U * noise.noise_U + au * au * mean_xn2;
       if (var_q > 0.0 && var_u > 0.0 && used > 2) {
-        // Per-sample terms first (a loop without reductions, vectorised), then their sum in sample order.
-        double* const term = xns;
-        for (std::size_t i = win.begin; i < win.end; ++i) {
-          const double x = xs[i];
-          const double rq = Q[i] - x * aq, ru = U[i] - x * au;
-          term[i] = rq * rq / var_q + ru * ru / var_u;
-        }
         double chi2 = 0.0;
-        for (std::size_t i = win.begin; i < win.end; ++i)
-          if (!std::isnan(xs[i])) chi2 += term[i];
+        if (used == win.size()) {
+          // Every sample used (none NaN: sxx would be NaN): each term added in sample order as it is formed.
+          for (std::size_t i = win.begin; i < win.end; ++i) {
+            const double x = xs[i];
+            const double rq = Q[i] - x * aq, ru = U[i] - x * au;
+            chi2 += rq * rq / var_q + ru * ru / var_u;
+          }
+        } else {
+          // Per-sample terms first (a loop without reductions, vectorised), then the sum of the used ones.
+          double* const term = xns;
+          for (std::size_t i = win.begin; i < win.end; ++i) {
+            const double x = xs[i];
+            const double rq = Q[i] - x * aq, ru = U[i] - x * au;
+            term[i] = rq * rq / var_q + ru * ru / var_u;
+          }
+          for (std::size_t i = win.begin; i < win.end; ++i)
+            if (!std::isnan(xs[i])) chi2 += term[i];
+        }
         r.dof_qu = static_cast<int>(2 * used) - 2;
         r.chi2_qu = chi2 / r.dof_qu;
       }

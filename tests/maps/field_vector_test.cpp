@@ -1,4 +1,5 @@
 // |B|, inclination and their errors from B_LOS and B_T (field_vector.hpp).
+#include <algorithm>
 #include <cmath>
 
 #include <gtest/gtest.h>
@@ -13,6 +14,9 @@ constexpr double kExactRelTol = 1e-15;     // one rounding of sqrt(9 + 16) and o
 // The 2-sigma spread of |B| equals linear propagation to second order in sigma/value (the header): at
 // sigma/value ~ 3e-3 the quarter spread differs from it by ~1e-5 relative.
 constexpr double kLinearRelTol = 1e-4;
+// Two forms of the same angle differences, each within a few 1e-16 rad of the exact one; the differences here
+// are >= 1e-4 rad, so the forms agree to ~1e-12 relative.
+constexpr double kSpreadRelTol = 1e-11;
 
 TEST(FieldVector, ThreeFourFiveTriangle) {
   const FieldVector v = ComposeFieldVector(3.0, 0.0, 4.0, 0.0, 0.0);
@@ -36,6 +40,26 @@ TEST(FieldVector, ErrorsReduceToLinearPropagationAtHighSignal) {
   // d|B| = (l dl + t dt) / |B|;  d(incl) = (l dt - t dl) / |B|^2 (first-order propagation, textbook)
   EXPECT_CLOSE(v.field_err_gauss, std::hypot(l * sl, t * st) / b, kLinearRelTol);
   EXPECT_CLOSE(v.inclination_err_deg, std::hypot(l * st, t * sl) / (b * b) * 180.0 / M_PI, kLinearRelTol);
+}
+
+// The inclination error is a quarter of the angle spread over the 2-sigma ranges (the header); written out
+// here with four separate atan2 calls, it must agree with the library's one-atan2-per-difference form,
+// including the corners where a range reaches 0 (a point on an axis or at the origin).
+TEST(FieldVector, InclinationSpreadMatchesTheFourAngleDefinition) {
+  auto reference = [](double l, double sl, double t, double st) {
+    const double lo = std::fabs(l), l_lo = std::max(lo - 2.0 * sl, 0.0), l_hi = lo + 2.0 * sl;
+    const double t_lo = std::max(t - 2.0 * st, 0.0), t_hi = t + 2.0 * st;
+    const double a = std::atan2(t_hi, lo) - std::atan2(t_lo, lo), b = std::atan2(t, l_lo) - std::atan2(t, l_hi);
+    return 0.25 * std::hypot(a, b) * 180.0 / M_PI;
+  };
+  const double cases[][4] = {{300.0, 5.0, 400.0, 7.0},  {-300.0, 5.0, 400.0, 7.0}, {0.0, 5.0, 400.0, 7.0},
+                             {300.0, 5.0, 0.0, 7.0},    {300.0, 200.0, 3.0, 7.0},  {0.0, 5.0, 3.0, 7.0},
+                             {1e-3, 1e-4, 2e-3, 1e-4},  {2e3, 0.5, 1.0, 0.1},     {1e200, 1e199, 1e200, 1e199}};
+  for (const auto& c : cases) {
+    const FieldVector v = ComposeFieldVector(c[0], c[1], c[2], c[3], 0.0);
+    EXPECT_CLOSE(v.inclination_err_deg, reference(c[0], c[1], c[2], c[3]), kSpreadRelTol)
+        << c[0] << " " << c[1] << " " << c[2] << " " << c[3];
+  }
 }
 
 }  // namespace

@@ -38,7 +38,7 @@ CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const Cont
                                               const CentreOfGravityOptions& options);
 
 /// What the estimate takes from the wavelength grid alone (the window and the trapezoid weights), worked out
-/// once for many pixels on one grid, and scratch for the error propagation; one per thread.
+/// once for many pixels on one grid; one per thread.
 /// CentreOfGravityEstimatePrepared(s, noise, options, work) is bit for bit CentreOfGravityEstimate(s, noise,
 /// options) for a pixel on the grid of the last Prepare (same options); the latter prepares a workspace per call.
 /// A pixel on another grid (other wavelength pointer or length) throws OptionError.
@@ -47,7 +47,6 @@ struct CentreOfGravityWorkspace {
   std::size_t n = 0;
   SampleRange window;
   std::vector<double> weight;                ///< trapezoid weight w_i per sample
-  std::vector<double> var_diff, var_mean;    ///< per-sample variance terms (scratch)
   void Prepare(const double* wavelength_nm, std::size_t n, const CentreOfGravityOptions& options);
 };
 CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,

@@ -48,6 +48,8 @@ class DerivativeStencil {
   /// d f / d lambda and d^2 f / d lambda^2 of f[0..n) into out[0..n).
   void First(const double* f, double* out) const;
   void Second(const double* f, double* out) const;
+  /// Both in one pass over f (the same values as First and Second).
+  void FirstAndSecond(const double* f, double* first, double* second) const;
 
  private:
   template <int kOrder>
