@@ -16,7 +16,6 @@
 #include <cstdint>
 #include <cstdlib>
 #include <cstring>
-#include <exception>
 #include <limits>
 #include <type_traits>
 #if defined(__SSE2__)
@@ -126,7 +125,7 @@ struct CubeReader::Impl {
 
   template <class T>
   void Read(long y_begin, long y_count, CubeTileT<T>& tile);
-  void ReadRaw(long y_begin, long y_count, bool force_float, RawCubeTile& tile, int threads = 1);
+  void ReadRaw(long y_begin, long y_count, bool force_float, RawCubeTile& tile);
 };
 
 void CubeReader::Impl::Open(const std::string& path) {
@@ -454,7 +453,7 @@ void CubeReader::Impl::ParseWcs(const std::array<long long, 4>& naxes) {
   info.spatial_wcs_header = cards;
 }
 
-void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, RawCubeTile& tile, int threads) {
+void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, RawCubeTile& tile) {
   if (y_begin < 0 || y_count <= 0 || y_begin + y_count > info.ny) {
     throw OptionError("CubeReader::ReadRows: rows " + std::to_string(y_begin) + " + " + std::to_string(y_count) +
                       " outside 0.." + std::to_string(info.ny));
@@ -504,8 +503,8 @@ void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, Raw
     long outer = 1;
     for (int i = info.y_axis + 1; i < 4; ++i) outer *= info.axes[i].size;
     const std::size_t elem = tile.as_float ? sizeof(float) : sizeof(double);
-    // Index j over the axes after y (FITS order) -> offset of the run's first element in the file.
-    auto first_of = [&](long j) {
+    for (long j = 0; j < outer && status == 0; ++j) {
+      // Index j over the axes after y (FITS order) -> offset of the run's first element in the file.
       LONGLONG first = full_stride * y_begin, plane = full_stride * info.axes[info.y_axis].size;
       long rest = j;
       for (int i = info.y_axis + 1; i < 4; ++i) {
@@ -513,32 +512,12 @@ void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, Raw
         rest /= info.axes[i].size;
         plane *= info.axes[i].size;
       }
-      return first;
-    };
-    if (data_fd >= 0 && tile.as_float) {
-      // float32 as stored (Gather swaps the bytes as it converts), in pieces of at most 1 Mi samples spread over
-      // `threads` (pread is safe to call at once on one descriptor; each piece has its own part of the buffer).
-      tile.file_byte_order = true;
-      const LONGLONG piece = std::min<LONGLONG>(run, 1 << 20), per_run = (run + piece - 1) / piece;
-      const long pieces = static_cast<long>(outer * per_run);
-      float* const into = static_cast<float*>(buffer);
-      std::exception_ptr error;
-#pragma omp parallel for schedule(static) num_threads(std::max(threads, 1)) if (threads > 1 && pieces > 1)
-      for (long q = 0; q < pieces; ++q) {
-        const long j = static_cast<long>(q / per_run);
-        const LONGLONG k0 = (q % per_run) * piece, k1 = std::min(run, k0 + piece);
-        try {
-          ReadDirect(first_of(j) + k0, k1 - k0, into + j * run + k0, y_begin, y_count);
-        } catch (...) {
-#pragma omp critical(zeeline_direct_read_error)
-          if (!error) error = std::current_exception();
-        }
-      }
-      if (error) std::rethrow_exception(error);
-    } else {
-      for (long j = 0; j < outer && status == 0; ++j) {
-        void* into = static_cast<char*>(buffer) + static_cast<std::size_t>(j) * static_cast<std::size_t>(run) * elem;
-        fits_read_img(f, datatype, first_of(j) + 1, run, nulval, into, &anynul, &status);
+      void* into = static_cast<char*>(buffer) + static_cast<std::size_t>(j) * static_cast<std::size_t>(run) * elem;
+      if (data_fd >= 0 && tile.as_float) {  // float32 as stored: Gather swaps the bytes as it converts
+        ReadDirect(first, run, static_cast<float*>(into), y_begin, y_count);
+        tile.file_byte_order = true;
+      } else {
+        fits_read_img(f, datatype, first + 1, run, nulval, into, &anynul, &status);
       }
     }
   } else {
@@ -830,9 +809,8 @@ void CubeReader::ReadRows(long y_begin, long y_count, CubeTileT<T>& tile) {
   impl_->Read(y_begin, y_count, tile);
 }
 
-void CubeReader::ReadRowsRaw(long y_begin, long y_count, RawCubeTile& tile, int threads) {
-  if (threads < 1) throw OptionError("CubeReader::ReadRowsRaw: threads = " + std::to_string(threads) + ": expected >= 1");
-  impl_->ReadRaw(y_begin, y_count, false, tile, threads);
+void CubeReader::ReadRowsRaw(long y_begin, long y_count, RawCubeTile& tile) {
+  impl_->ReadRaw(y_begin, y_count, false, tile);
 }
 
 template <class T>

@@ -13,8 +13,6 @@
 #include <memory>
 #include <sstream>
 
-#include <omp.h>
-
 #include "zeeline/core/constants.hpp"
 #include "zeeline/core/errors.hpp"
 #include "zeeline/core/threads.hpp"
@@ -631,77 +629,40 @@ void FieldMapEngine::ChooseLayout(const RawCubeTile& first_tile) {
   // median level, which sets the data-sanity ceiling.
   const std::size_t nw = info_.wavelength_nm.size();
   const std::size_t record = nw * static_cast<std::size_t>(info_.n_stokes());
-  std::vector<double> mean_I(nw, 0.0);
+  std::vector<double> mean_I(nw, 0.0), spectra(record * static_cast<std::size_t>(kPixelBlock));
   std::vector<long> count(nw, 0);
   const long np = first_tile.n_pixels();
-  const long blocks = (np + kPixelBlock - 1) / kPixelBlock;
-  const int threads = ResolveThreadCount(o_.threads);
-  // Pixel j of a block of kPixelBlock pixels gathered into `spectra` (CheckSampleRange finds NaN/Inf).
-  auto spectrum = [&](const std::vector<double>& spectra, long j) {
-    const double* d = spectra.data() + static_cast<std::size_t>(j) * record;
+  // Pixel p's spectra, gathered a block of kPixelBlock pixels at a time (CheckSampleRange finds NaN/Inf).
+  long block_begin = -1;
+  auto gather = [&](long p) {
+    if (block_begin < 0 || p < block_begin || p >= block_begin + kPixelBlock) {
+      block_begin = p - p % kPixelBlock;
+      first_tile.GatherBlock(block_begin, std::min(kPixelBlock, np - block_begin), spectra.data());
+    }
+    const double* d = spectra.data() + static_cast<std::size_t>(p - block_begin) * record;
     return PixelSpectrum{info_.wavelength_nm.data(), nw, d + static_cast<std::size_t>(si_) * nw,
                          has_qu_ ? d + static_cast<std::size_t>(sq_) * nw : nullptr,
                          has_qu_ ? d + static_cast<std::size_t>(su_) * nw : nullptr,
                          has_v_ ? d + static_cast<std::size_t>(sv_) * nw : nullptr};
   };
-  // Both passes run on the map's threads, in blocks of pixels: each thread's blocks are a contiguous range
-  // (static schedule), so the median level sees the samples in pixel order; the mean profile is summed in
-  // pixel order afterwards, a chunk of pixels at a time: the same layout, bit for bit, whatever the thread
-  // count.
   const DataSanityLimits type_range = MakeSanityLimits(info_.bitpix, 0.0, 0.0);
   const std::size_t stride = std::max<std::size_t>(1, static_cast<std::size_t>(np) * nw / (1u << 20));
-  std::vector<std::vector<double>> levels_of(static_cast<std::size_t>(threads));
-#pragma omp parallel num_threads(threads)
-  {
-    std::vector<double> spectra(record * static_cast<std::size_t>(kPixelBlock));
-    std::vector<double>& mine = levels_of[static_cast<std::size_t>(omp_get_thread_num())];
-#pragma omp for schedule(static)
-    for (long b = 0; b < blocks; ++b) {
-      const long first = b * kPixelBlock, n = std::min(kPixelBlock, np - first);
-      first_tile.GatherBlock(first, n, spectra.data());
-      for (long j = 0; j < n; ++j) {
-        const PixelSpectrum s = spectrum(spectra, j);
-        if (CheckSampleRange(s, type_range)) continue;
-        for (std::size_t k = static_cast<std::size_t>(first + j) % stride; k < nw; k += stride) mine.push_back(s.I[k]);
-      }
-    }
-  }
-  std::vector<double> levels = std::move(levels_of[0]);
-  for (std::size_t t = 1; t < levels_of.size(); ++t) {
-    levels.insert(levels.end(), levels_of[t].begin(), levels_of[t].end());
-    std::vector<double>().swap(levels_of[t]);
+  std::vector<double> levels;
+  for (long p = 0; p < np; ++p) {
+    const PixelSpectrum s = gather(p);
+    if (CheckSampleRange(s, type_range)) continue;
+    for (std::size_t k = static_cast<std::size_t>(p) % stride; k < nw; k += stride) levels.push_back(s.I[k]);
   }
   const double median_level = MedianLevel(std::move(levels));
+  block_begin = -1;
   const DataSanityLimits range = MakeSanityLimits(info_.bitpix, median_level, 0.0);
-  constexpr long kChunkBlocks = 512;  // 4096 pixels: their I spectra (2 MiB at 60 samples) wait for the sum
-  std::vector<double> chunk_I(static_cast<std::size_t>(kChunkBlocks * kPixelBlock) * nw);
-  std::vector<unsigned char> usable(static_cast<std::size_t>(kChunkBlocks * kPixelBlock));
-  for (long b0 = 0; b0 < blocks; b0 += kChunkBlocks) {
-    const long b1 = std::min(blocks, b0 + kChunkBlocks), p0 = b0 * kPixelBlock;
-#pragma omp parallel num_threads(threads)
-    {
-      std::vector<double> spectra(record * static_cast<std::size_t>(kPixelBlock));
-#pragma omp for schedule(static)
-      for (long b = b0; b < b1; ++b) {
-        const long first = b * kPixelBlock, n = std::min(kPixelBlock, np - first);
-        first_tile.GatherBlock(first, n, spectra.data());
-        for (long j = 0; j < n; ++j) {
-          const PixelSpectrum s = spectrum(spectra, j);
-          const std::size_t q = static_cast<std::size_t>(first + j - p0);
-          usable[q] = !CheckSampleRange(s, range);  // NaN/Inf, fill values, absurd levels
-          if (usable[q]) std::copy_n(s.I, nw, chunk_I.begin() + static_cast<std::ptrdiff_t>(q * nw));
-        }
-      }
-    }
-    const long p1 = std::min(np, b1 * kPixelBlock);
-    for (long p = p0; p < p1; ++p) {
-      const std::size_t q = static_cast<std::size_t>(p - p0);
-      if (!usable[q]) continue;
-      const double* I = chunk_I.data() + q * nw;
-      for (std::size_t k = 0; k < nw; ++k) {
-        mean_I[k] += I[k];
-        ++count[k];
-      }
+  for (long p = 0; p < np; ++p) {
+    const PixelSpectrum s = gather(p);
+    if (CheckSampleRange(s, range)) continue;  // NaN/Inf, fill values, absurd levels
+    const double* I = s.I;
+    for (std::size_t k = 0; k < nw; ++k) {
+      mean_I[k] += I[k];
+      ++count[k];
     }
   }
   for (std::size_t k = 0; k < nw; ++k) mean_I[k] = count[k] ? mean_I[k] / static_cast<double>(count[k]) : 0.0;
@@ -855,12 +816,16 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
   const std::vector<int> whole_slots = WholeMapSlots(o);
   // Tiles in file order (RawCubeTile): each worker gathers its pixel's spectra itself, in its own cache,
   // instead of a separate reorder pass over the tile (docs/methods.md, "What the speed depends on").
-  // Double buffering: the next tile is read on a second thread while the estimators work on the current
-  // one. At most one read is in flight, so the reader is never used concurrently. `tile` and `next_tile`
-  // point into `buffers` and are swapped as pointers: a read in flight keeps its buffer.
-  RawCubeTile buffers[2];
-  RawCubeTile* tile = &buffers[0];
-  RawCubeTile* next_tile = &buffers[1];
+  RawCubeTile tile, next_tile;
+  {
+    const auto t0 = Clock::now();
+    reader.ReadRowsRaw(0, std::min(rows_per_tile, info.ny), tile);
+    maps.read_seconds = maps.read_wait_seconds = seconds_since(t0);  // nothing to overlap with yet
+  }
+  engine.ChooseLayout(tile);
+
+  // Double buffering: the next tile is read (cfitsio) on a second thread while the estimators work on the
+  // current one. At most one read is in flight, so the reader is never used concurrently.
   std::future<void> pending;
   // With a single thread there is no second thread: the read is deferred and runs inside pending.get().
   const auto policy = threads > 1 ? std::launch::async : std::launch::deferred;
@@ -873,16 +838,12 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
       read_seconds += seconds_since(t0);
     });
   };
-  {
-    // The first tile with every thread (nothing to overlap with yet; a direct read is spread over them).
-    const auto t0 = Clock::now();
-    reader.ReadRowsRaw(0, std::min(rows_per_tile, info.ny), *tile, threads);
-    maps.read_seconds = maps.read_wait_seconds = seconds_since(t0);
+  if (maps.rows_done == 0) {
+    std::swap(tile, next_tile);  // the layout tile is the loop's first tile: not read twice
+    pending = std::async(std::launch::deferred, [] {});
+  } else if (maps.rows_done < info.ny) {
+    start_read(maps.rows_done, next_tile);
   }
-  engine.ChooseLayout(*tile);  // on every thread too
-  // A fresh run computes the layout tile first (not read twice).
-  const bool layout_tile_first = maps.rows_done == 0;
-  if (!layout_tile_first && maps.rows_done < info.ny) start_read(maps.rows_done, *next_tile);
   // With a sink: the maps of a tile's rows, two of them, so that one is handed to the sink on its own thread
   // while the next is computed (not with checkpoints, which must count only rows the sink has; nor with one
   // thread). Declared after the blocks: a write in flight is waited for before they go away.
@@ -899,20 +860,17 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     maps.sink_seconds += seconds_since(t0);
   };
   for (long y0 = maps.rows_done; y0 < info.ny; y0 += rows_per_tile) {
-    const bool in_hand = layout_tile_first && y0 == 0;  // the layout tile
-    if (!in_hand) {
-      const auto t_wait = Clock::now();
-      pending.get();  // rethrows a read error
-      maps.read_wait_seconds += seconds_since(t_wait);
-      std::swap(tile, next_tile);
-    }
+    const auto t_wait = Clock::now();
+    pending.get();  // rethrows a read error
+    maps.read_wait_seconds += seconds_since(t_wait);
+    std::swap(tile, next_tile);
     if (run.cancel && run.cancel->load()) {
       wait_for_writing();
       save_checkpoint();
       return RunStatus::kCancelled;
     }
     const long rows = std::min(rows_per_tile, info.ny - y0);
-    if (y0 + rows < info.ny) start_read(y0 + rows, *next_tile);
+    if (y0 + rows < info.ny) start_read(y0 + rows, next_tile);
     // If processing below throws, wait for the read in flight before the buffers go out of scope.
     struct Join {
       std::future<void>& f;
@@ -926,7 +884,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
       if (block.ny != rows || block.nx != info.nx) engine.InitMaps(rows, block);
       std::fill(std::begin(block.method_counts), std::end(block.method_counts), 0);
       block.me_iterations = 0;
-      engine.Compute(*tile, block, y0);  // sets every pixel of the block
+      engine.Compute(tile, block, y0);  // sets every pixel of the block
       AddCounts(block, maps);
       TallyRows(block, 0, rows, maps);
       const std::size_t at = static_cast<std::size_t>(y0 * info.nx), np = static_cast<std::size_t>(rows * info.nx);
@@ -939,7 +897,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
       if (!overlap_writes) wait_for_writing();
       current ^= 1;
     } else {
-      engine.Compute(*tile, maps);
+      engine.Compute(tile, maps);
       TallyRows(maps, y0, rows, maps);
       maps.compute_seconds += seconds_since(t_compute);
     }

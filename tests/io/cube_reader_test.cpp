@@ -626,10 +626,6 @@ TEST(CubeReaderDirect, GivesCfitsioValuesBitForBitInAll24AxisOrders) {
           EXPECT_FALSE(tb.file_byte_order);
           direct_tiles += ta.file_byte_order;
           EXPECT_TRUE(SameBits(GatherAll(ta), GatherAll(tb))) << "rows " << y0 << " + " << count;
-          RawCubeTile tc;  // the direct read spread over 3 threads (the map's first tile)
-          a.ReadRowsRaw(y0, count, tc, 3);
-          EXPECT_EQ(tc.file_byte_order, ta.file_byte_order);
-          EXPECT_TRUE(SameBits(GatherAll(tc), GatherAll(tb))) << "rows " << y0 << " + " << count << ", 3 threads";
           CubeTileF fa, fb;  // the pixel-major reorder of ReadRows, float and double
           a.ReadRows(y0, count, fa);
           b.ReadRows(y0, count, fb);
@@ -721,8 +717,6 @@ TEST(CubeReaderDirect, EverythingElseStaysWithCfitsio) {
   CubeReadOptions off;
   off.direct_read = false;
   EXPECT_FALSE(CubeReader(plain, off).reads_data_directly());
-  RawCubeTile raw;
-  EXPECT_THROW(CubeReader(plain).ReadRowsRaw(0, 1, raw, 0), OptionError);
 }
 
 TEST(CubeReaderDirect, FileCutShortAfterOpeningIsAnErrorNamingFileAndRows) {

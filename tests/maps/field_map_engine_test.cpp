@@ -135,10 +135,10 @@ TEST(FieldMapEngine, RefusesRowsOutsideItsMapsAndWorkWithoutALayout) {
 
 
 // The layout (fit window from the mean I profile, continuum samples, the median level of the sanity ceiling)
-// is computed on the map's threads in blocks of pixels: it must not depend on their number. 96 x 60 pixels
-// (more than one chunk of 4096 pixels for the ordered sum), with a NaN pixel and a pixel of absurd level that
-// stay out of it; the median level is checked against its definition (data_sanity.hpp: the median of |I| over
-// the samples of the pixels inside the type range, the upper middle element when their number is even).
+// must not depend on the map's thread count. 96 x 60 pixels with a NaN pixel and a pixel of absurd level that
+// stay out of the mean profile; the median level is checked against its definition (data_sanity.hpp: the
+// median of |I| over the samples of the pixels inside the type range, the upper middle element when their
+// number is even).
 TEST(FieldMapEngine, LayoutDoesNotDependOnTheThreadCount) {
   test::TempDir dir;
   const std::string path = dir.File("wide.fits");

@@ -178,9 +178,7 @@ class CubeReader {
   void ReadRows(long y_begin, long y_count, CubeTileT<T>& tile);
 
   /// Reads rows [y_begin, y_begin + y_count) without reordering (see RawCubeTile; buffers are reused).
-  /// `threads` > 1 spreads a direct read (reads_data_directly) over that many OpenMP threads, for a caller
-  /// with nothing else to do meanwhile (the map's first tile); cfitsio reads stay on the calling thread.
-  void ReadRowsRaw(long y_begin, long y_count, RawCubeTile& tile, int threads = 1);
+  void ReadRowsRaw(long y_begin, long y_count, RawCubeTile& tile);
 
   /// Sequential iteration: fills the next tile, returns false after the last one.
   template <class T>
