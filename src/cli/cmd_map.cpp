@@ -212,7 +212,7 @@ void RunMap(const MapArgs& a) {
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
      << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
      << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me << "|"
-     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.consistency_sigma << "|" << a.tile_mib;
+     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.transverse_model_error << "|" << o.consistency_sigma << "|" << a.tile_mib;
   for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;
   run.fingerprint = fp.str();
@@ -339,6 +339,10 @@ void AddMapComputeOptions(CLI::App* cmd, MapArgs& a) {
   cmd->add_option("--transverse-detection", a.transverse_detection,
                   "LOW_TRANSVERSE where the weak-field B_T^2 is below this many of its sigma")
       ->capture_default_str();
+  cmd->add_option("--transverse-model-error", a.transverse_model_error,
+                  "model accuracy of the saturation-corrected weak-field B_T as a fraction of B_T, added in quadrature "
+                  "to B_TRANS_SIGMA (docs/methods.md); 0 = noise only")
+      ->capture_default_str();
   cmd->add_option("--shape-test-sigma", a.shape_test_sigma,
                   "weak-field model rejected (MODEL_MISMATCH / not weak) where its chi2 exceeds 1 by this many sigma")
       ->capture_default_str();
@@ -405,6 +409,7 @@ MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const Cu
   o.resolution_ratio = a.resolution_ratio;
   o.detection_sigma = a.detection_sigma;
   o.transverse_detection = a.transverse_detection;
+  o.transverse_model_error = a.transverse_model_error;
   o.consistency_sigma = a.shape_test_sigma;
   o.need_transverse = a.require_transverse;
   o.threads = a.threads > 0 ? a.threads : DefaultThreads();  // under MPI: the node's cores shared by its ranks

@@ -123,6 +123,7 @@ class PixelProcessor {
     wfa_.transverse = o.transverse;
     wfa_.core_halfwidth_nm = o.core_halfwidth_nm;
     wfa_.wing_start_nm = o.wing_start_nm;
+    wfa_.corrected_model_error = o.transverse_model_error;
     cog_.rest_wavelength_nm = o.rest_wavelength_nm;
     cog_.g_eff = o.pattern.g_eff;
     cog_.window_halfwidth_nm = lay.window_halfwidth_nm;
@@ -543,6 +544,8 @@ std::string FieldMapOptions::Validate() const {
   else if (!(wing_start_nm >= 0.0)) m << "wing start = " << wing_start_nm << " nm must be >= 0 (0 = 4.8 Doppler widths)";
   else if (!(consistency_sigma > 0.0)) m << "consistency sigma = " << consistency_sigma << " must be > 0";
   else if (!(transverse_detection >= 0.0)) m << "transverse detection = " << transverse_detection << " must be >= 0";
+  else if (!(transverse_model_error >= 0.0 && transverse_model_error < 1.0))
+    m << "transverse model error = " << transverse_model_error << " must be in [0, 1)";
   else {
     for (std::size_t i = 0; i < extra_lines.size(); ++i) {
       const MeLine& l = extra_lines[i];

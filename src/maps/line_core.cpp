@@ -62,6 +62,36 @@ double SaturationFromCoreShape(double ratio) {
   return u;
 }
 
+double SaturationFromSampledCore(double ratio, double kappa4, double kappa6) {
+  const double u0 = SaturationFromCoreShape(ratio);  // the parabola read as the true curvature
+  if (!(u0 > kSampledCoreFrom) || !(u0 < 1e3)) return u0;
+  // F(u) = R C(u) - ratio, C = 1 + kappa4 (u - 1) R + kappa6 (u^2 - 4u + 1) R^2: the root on the branch that
+  // starts at u0 (above it, where the quartic term raises the fitted curvature). Newton steps inside the
+  // bracket [lo, hi], bisection where a step would leave it; as in SaturationFromCoreShape a Newton step
+  // below 1e-8 (1 + u) leaves an error of order its square.
+  auto F = [&](double u, double& slope) {
+    const double R = CoreShapeRatio(u), dR = (1.0 / (2.0 + u) - R) / (1.0 + u);
+    const double p4 = kappa4 * (u - 1.0), p6 = kappa6 * (u * u - 4.0 * u + 1.0);
+    const double C = 1.0 + p4 * R + p6 * R * R;
+    slope = dR * C + R * (kappa4 * R + p4 * dR + kappa6 * (2.0 * u - 4.0) * R * R + 2.0 * p6 * R * dR);
+    return R * C - ratio;
+  };
+  double slope = 0.0;
+  if (!(F(u0, slope) > 0.0)) return u0;  // no lift to undo: keep the plain reading
+  double lo = u0, hi = 1e3, u = u0;
+  if (F(hi, slope) > 0.0) return u0;  // no root on this branch below u = 1e3: keep the plain reading
+  for (int it = 0; it < 100; ++it) {
+    const double f = F(u, slope);
+    (f > 0.0 ? lo : hi) = u;
+    double next = slope < 0.0 ? u - f / slope : 0.5 * (lo + hi);
+    const bool newton = next > lo && next < hi;
+    if (!newton) next = 0.5 * (lo + hi);
+    if (std::fabs(next - u) <= (newton ? 1e-8 : 1e-15) * (1.0 + u) || hi - lo <= 1e-15 * (1.0 + u)) return next;
+    u = next;
+  }
+  return u;
+}
+
 LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_nm, double window) {
   LineCoreShape r;
   const SampleRange win = WindowRange(s.wavelength_nm, s.n, centre_nm, window);
@@ -124,11 +154,39 @@ LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_n
   }
   const double m02 = S1 * S3 - S2 * S2;
   const double det = S0 * (S2 * S4 - S3 * S3) - S1 * (S1 * S4 - S2 * S3) + S2 * m02;
-  const double c2 = (T2 * (S0 * S2 - S1 * S1) - T1 * (S0 * S3 - S1 * S2) + T0 * m02) / det;
+  // The z^2 coefficient of the fit to any data (t0, t1, t2) = (sum y, sum y z, sum y z^2) on these samples.
+  const double w0 = m02 / det, w1 = -(S0 * S3 - S1 * S2) / det, w2 = (S0 * S2 - S1 * S1) / det;
+  const double c2 = w2 * T2 + w1 * T1 + w0 * T0;
   const double curvature = 2.0 * c2 / (dz * dz);  // of sign * I: positive at an absorption minimum
   if (!(curvature > 0.0) || !std::isfinite(curvature)) return r;
-  const double ratio = curvature * r.half_depth_halfwidth_nm * r.half_depth_halfwidth_nm / (2.0 * best);
-  r.saturation = r.emission ? 0.0 : SaturationFromCoreShape(ratio);
+  const double xh2 = r.half_depth_halfwidth_nm * r.half_depth_halfwidth_nm;
+  const double ratio = curvature * xh2 / (2.0 * best);
+  if (r.emission) {
+    r.saturation = 0.0;
+  } else {
+    // The quartic and sextic terms of the core (file comment): K4, K6 = the z^2 coefficients of the fit to
+    // (z - dv)^4 and (z - dv)^6 on the same samples, dv = -c1 / (2 c2) the fitted vertex (c1 by Cramer's
+    // rule too), then in wavelength units K_n dz^(n-2).
+    const double c1 = (S0 * (T1 * S4 - S3 * T2) - T0 * (S1 * S4 - S3 * S2) + S2 * (S1 * T2 - T1 * S2)) / det;
+    const double dv = -c1 / (2.0 * c2);
+    double q4[3] = {0.0, 0.0, 0.0}, q6[3] = {0.0, 0.0, 0.0};  // sums of (z - dv)^n z^p, p = 0, 1, 2
+    for (long j = -h; j <= h; ++j) {
+      const std::size_t i = static_cast<std::size_t>(static_cast<long>(k) + j);
+      const double z = (s.wavelength_nm[i] - r.extremum_nm) / dz;
+      const double e2 = (z - dv) * (z - dv), e4 = e2 * e2, e6 = e4 * e2;
+      q4[0] += e4;
+      q4[1] += e4 * z;
+      q4[2] += e4 * z * z;
+      q6[0] += e6;
+      q6[1] += e6 * z;
+      q6[2] += e6 * z * z;
+    }
+    const double dz2 = dz * dz;
+    const double kappa4 = (w2 * q4[2] + w1 * q4[1] + w0 * q4[0]) * dz2 / (2.0 * xh2);
+    const double kappa6 = (w2 * q6[2] + w1 * q6[1] + w0 * q6[0]) * dz2 * dz2 / (6.0 * xh2 * xh2);
+    r.saturation = std::isfinite(kappa4) && std::isfinite(kappa6) ? SaturationFromSampledCore(ratio, kappa4, kappa6)
+                                                                   : SaturationFromCoreShape(ratio);
+  }
   r.doppler_width_nm = r.half_depth_halfwidth_nm / std::sqrt(std::log(2.0 + r.saturation));
   r.surface_source = r.saturation > 0.0 ? s.I[k] - best / r.saturation : -HUGE_VAL;
   r.ok = std::isfinite(r.doppler_width_nm) && r.doppler_width_nm > 0.0;

@@ -38,6 +38,8 @@ std::string WeakFieldOptions::Validate() const {
     m << "core_halfwidth_nm = " << core_halfwidth_nm << " must be >= 0";
   else if (!(wing_start_nm >= 0.0))
     m << "wing_start_nm = " << wing_start_nm << " must be >= 0 (0 = 4.8 Doppler widths)";
+  else if (!(corrected_model_error >= 0.0 && corrected_model_error < 1.0))
+    m << "corrected_model_error = " << corrected_model_error << " must be in [0, 1)";
   return m.str();
 }
 
@@ -226,6 +228,13 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
       r.btrans_sq_err_gauss2 = sa;
       r.btrans_gauss = std::sqrt(p0);
       r.btrans_err_gauss = sa / std::sqrt(4.0 * std::max(p0 - 0.8 * sa, 0.0) + 0.8 * sa);
+      r.saturation_corrected = correct;
+      if (correct && o.corrected_model_error > 0.0) {
+        // Model accuracy of the saturation correction (file comment), in quadrature with the noise.
+        const double f = o.corrected_model_error;
+        r.btrans_err_gauss = std::sqrt(r.btrans_err_gauss * r.btrans_err_gauss + f * f * p0);
+        r.btrans_sq_err_gauss2 = std::sqrt(sa * sa + 4.0 * f * f * p0 * p0);
+      }
       if (p0 > 0.0) {
         double chi = 0.5 * std::atan2(au, aq) * 180.0 / 3.14159265358979323846;
         if (chi < 0.0) chi += 180.0;

@@ -37,6 +37,9 @@ Draws Simulate(double btrans_gauss, unsigned seed) {
   o.g_eff = m.pattern.g_eff;
   o.G = m.pattern.G;
   o.window_halfwidth_nm = 0.018;
+  // The noise part of sigma(B_T) alone: the model term of the saturation correction (weak_field.hpp) is
+  // checked against noiseless syntheses in weak_field_saturation_test.cpp.
+  o.corrected_model_error = 0.0;
   std::vector<std::size_t> cont;
   for (std::size_t i = 0; i < m.wl.size(); ++i)
     if (std::fabs(m.wl[i] - kLine) > 0.018) cont.push_back(i);

@@ -89,6 +89,9 @@ struct FieldMapOptions {
   double weak_ratio = kDefaultWeakRatio;  ///< splitting/Doppler width below which the weak-field answer is used (auto) / valid (wfa)
   double consistency_sigma = 5.0;    ///< weak-field chi2 shape test threshold (weak_field_regime.hpp)
   double transverse_detection = 6.0; ///< LOW_TRANSVERSE below this many sigma of the weak-field B_T^2
+  /// Model accuracy (fraction of B_T) of the saturation-corrected weak-field B_T, in quadrature with its noise
+  /// error (weak_field.hpp); 0 = noise only.
+  double transverse_model_error = WeakFieldOptions{}.corrected_model_error;
   double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
   /// Set: the split estimator's |B| beyond the linear regime (full_splitting.hpp) above mixed_from_gauss.
   std::shared_ptr<const SigmaSplittingTable> mixed_splitting;
