@@ -127,6 +127,7 @@ def map(
     resolution_ratio: float = ...,
     detection_sigma: float = ...,
     transverse_detection: float = ...,
+    transverse_model_error: float = ...,
     shape_test_sigma: float = ...,
     v_sign: int = ...,
     require_transverse: bool = ...,

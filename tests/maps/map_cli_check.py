@@ -9,6 +9,8 @@ and fitsverify (Debian fitsverify).
   resolved strong pixels' B_TOTAL within 10 % (the three-Gaussian splitting fit on a saturated ME line).
 * Contracts: an existing output is not overwritten (exit 3), an I+V cube is refused for transverse maps
   (exit 1, message names the file and Q and U), a bad method name exits 2.
+* --transverse-model-error: B_TRANS_SIGMA = hypot(noise sigma, f B_TRANS) (docs/methods.md), B_TRANS unchanged;
+  a value outside [0, 1) exits 2.
 Usage: /usr/bin/python3 map_cli_check.py /path/to/zeeline
 """
 import os
@@ -150,6 +152,27 @@ with tempfile.TemporaryDirectory() as tmp:
              os.path.join(tmp, "x.fits")], expect_rc=2)
     check("magic" in p.stderr, f"bad method message: {p.stderr!r}")
     check(not os.path.exists(os.path.join(tmp, "x.fits")), "no output after a refused command")
+
+    # --transverse-model-error (docs/methods.md): weak-field B_TRANS_SIGMA = hypot(noise sigma, f * B_TRANS) for
+    # the saturation-corrected B_T; the noise sigma comes from the run with f = 0 (same B_TRANS, same flags).
+    wfa0, wfa5 = os.path.join(tmp, "wfa0.fits"), os.path.join(tmp, "wfa5.fits")
+    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "wfa", "--transverse-model-error", "0",
+         "-o", wfa0, "-q"])
+    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "wfa", "-o", wfa5, "-q"])
+    with fits.open(wfa0) as a, fits.open(wfa5) as b:
+        bt = a["B_TRANS"].data.astype(float)
+        sel = np.isfinite(bt) & (bt > 0)
+        check(sel.sum() > 100, f"weak-field B_TRANS pixels on the demo cube: {sel.sum()}")
+        check(np.array_equal(bt, b["B_TRANS"].data.astype(float), equal_nan=True), "B_TRANS does not depend on the model term")
+        s0, s5 = a["B_TRANS_SIGMA"].data.astype(float)[sel], b["B_TRANS_SIGMA"].data.astype(float)[sel]
+        expect = np.hypot(s0, 0.05 * bt[sel])
+        # Saturation-corrected pixels follow the formula; the rest (no measured core) keep the noise sigma.
+        follows = np.isclose(s5, expect, rtol=1e-4) | np.isclose(s5, s0, rtol=1e-6)
+        check(follows.all(), f"B_TRANS_SIGMA = hypot(noise, 0.05 B_T): {np.count_nonzero(~follows)} pixels differ")
+        check(np.isclose(s5, expect, rtol=1e-4).mean() > 0.5, "most demo pixels carry the model term")
+    p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--transverse-model-error", "1.5", "-o",
+             os.path.join(tmp, "x.fits")], expect_rc=2)
+    check("transverse model error" in p.stderr, f"bad --transverse-model-error message: {p.stderr!r}")
 
 print(f"{len(failures)} failed" if failures else "all map CLI checks passed")
 sys.exit(1 if failures else 0)
