@@ -62,34 +62,45 @@ double SaturationFromCoreShape(double ratio) {
   return u;
 }
 
-double SaturationFromSampledCore(double ratio, double kappa4, double kappa6) {
-  const double u0 = SaturationFromCoreShape(ratio);  // the parabola read as the true curvature
-  if (!(u0 > kSampledCoreFrom) || !(u0 < 1e3)) return u0;
-  // F(u) = R C(u) - ratio, C = 1 + kappa4 (u - 1) R + kappa6 (u^2 - 4u + 1) R^2: the root on the branch that
-  // starts at u0 (above it, where the quartic term raises the fitted curvature). Newton steps inside the
-  // bracket [lo, hi], bisection where a step would leave it; as in SaturationFromCoreShape a Newton step
-  // below 1e-8 (1 + u) leaves an error of order its square.
-  auto F = [&](double u, double& slope) {
-    const double R = CoreShapeRatio(u), dR = (1.0 / (2.0 + u) - R) / (1.0 + u);
+namespace {
+// The root of R(u) C(u) = ratio on the branch that starts at u0 = SaturationFromCoreShape(ratio) (file comment);
+// u0 itself where that reading is kept.
+double RefineForSampling(double u0, double ratio, double kappa4, double kappa6) {
+  if (!(u0 > kSampledCoreFrom) || !(u0 < 1e3) || !std::isfinite(kappa4) || !std::isfinite(kappa6)) return u0;
+  // F(u) = R C(u) - ratio, C = 1 + kappa4 (u - 1) R + kappa6 (u^2 - 4u + 1) R^2, and its slope, from R(u) and
+  // R'(u) = (1/(2 + u) - R) / (1 + u).
+  auto F = [&](double u, double R, double& slope) {
+    const double dR = (1.0 / (2.0 + u) - R) / (1.0 + u);
     const double p4 = kappa4 * (u - 1.0), p6 = kappa6 * (u * u - 4.0 * u + 1.0);
     const double C = 1.0 + p4 * R + p6 * R * R;
     slope = dR * C + R * (kappa4 * R + p4 * dR + kappa6 * (2.0 * u - 4.0) * R * R + 2.0 * p6 * R * dR);
     return R * C - ratio;
   };
   double slope = 0.0;
-  if (!(F(u0, slope) > 0.0)) return u0;  // no lift to undo: keep the plain reading
+  double f = F(u0, ratio, slope);  // R(u0) = ratio: no logarithm for the first step
+  if (!(f > 0.0)) return u0;       // no lift to undo: keep the plain reading
+  // Newton steps inside the bracket [lo, hi], bisection where a step would leave it. A Newton step below
+  // 1e-4 (1 + u) leaves an error of order its square (~1e-8 relative), far below what the noise allows (u
+  // feeds S0 and w_D; the core's curvature carries percent-level noise).
   double lo = u0, hi = 1e3, u = u0;
-  if (F(hi, slope) > 0.0) return u0;  // no root on this branch below u = 1e3: keep the plain reading
   for (int it = 0; it < 100; ++it) {
-    const double f = F(u, slope);
-    (f > 0.0 ? lo : hi) = u;
     double next = slope < 0.0 ? u - f / slope : 0.5 * (lo + hi);
     const bool newton = next > lo && next < hi;
     if (!newton) next = 0.5 * (lo + hi);
-    if (std::fabs(next - u) <= (newton ? 1e-8 : 1e-15) * (1.0 + u) || hi - lo <= 1e-15 * (1.0 + u)) return next;
+    if (std::fabs(next - u) <= (newton ? 1e-4 : 1e-15) * (1.0 + u) || hi - lo <= 1e-15 * (1.0 + u)) {
+      u = next;
+      break;
+    }
     u = next;
+    f = F(u, CoreShapeRatio(u), slope);
+    (f > 0.0 ? lo : hi) = u;
   }
-  return u;
+  return u < 1e3 * (1.0 - 1e-9) ? u : u0;  // no root on this branch below u = 1e3: keep the plain reading
+}
+}  // namespace
+
+double SaturationFromSampledCore(double ratio, double kappa4, double kappa6) {
+  return RefineForSampling(SaturationFromCoreShape(ratio), ratio, kappa4, kappa6);
 }
 
 LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_nm, double window) {
@@ -161,9 +172,8 @@ LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_n
   if (!(curvature > 0.0) || !std::isfinite(curvature)) return r;
   const double xh2 = r.half_depth_halfwidth_nm * r.half_depth_halfwidth_nm;
   const double ratio = curvature * xh2 / (2.0 * best);
-  if (r.emission) {
-    r.saturation = 0.0;
-  } else {
+  r.saturation = r.emission ? 0.0 : SaturationFromCoreShape(ratio);
+  if (r.saturation > kSampledCoreFrom) {
     // The quartic and sextic terms of the core (file comment): K4, K6 = the z^2 coefficients of the fit to
     // (z - dv)^4 and (z - dv)^6 on the same samples, dv = -c1 / (2 c2) the fitted vertex (c1 by Cramer's
     // rule too), then in wavelength units K_n dz^(n-2).
@@ -184,8 +194,7 @@ LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_n
     const double dz2 = dz * dz;
     const double kappa4 = (w2 * q4[2] + w1 * q4[1] + w0 * q4[0]) * dz2 / (2.0 * xh2);
     const double kappa6 = (w2 * q6[2] + w1 * q6[1] + w0 * q6[0]) * dz2 * dz2 / (6.0 * xh2 * xh2);
-    r.saturation = std::isfinite(kappa4) && std::isfinite(kappa6) ? SaturationFromSampledCore(ratio, kappa4, kappa6)
-                                                                   : SaturationFromCoreShape(ratio);
+    r.saturation = RefineForSampling(r.saturation, ratio, kappa4, kappa6);
   }
   r.doppler_width_nm = r.half_depth_halfwidth_nm / std::sqrt(std::log(2.0 + r.saturation));
   r.surface_source = r.saturation > 0.0 ? s.I[k] - best / r.saturation : -HUGE_VAL;

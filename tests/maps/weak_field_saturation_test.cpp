@@ -62,14 +62,14 @@ TEST(SampledLineCore, FinelySampledCoreNeedsNoCorrection) {
 
 TEST(SampledLineCore, SaturationFromSampledCoreInvertsItsRelation) {
   // R_m = R(u) C(u), C = 1 + kappa4 (u - 1) R + kappa6 (u^2 - 4u + 1) R^2 (line_core.hpp), evaluated here and
-  // inverted; R(u) = ln(2 + u) / (1 + u).
+  // inverted; R(u) = ln(2 + u) / (1 + u). The solver stops at ~1e-8 relative (line_core.cpp).
   auto R = [](double u) { return std::log(2.0 + u) / (1.0 + u); };
   for (double kappa4 : {0.05, 0.15, 0.3}) {
     for (double kappa6 : {0.0, 0.01, 0.03}) {
       for (double u : {5.0, 10.0, 50.0}) {
         const double r = R(u);
         const double ratio = r * (1.0 + kappa4 * (u - 1.0) * r + kappa6 * (u * u - 4.0 * u + 1.0) * r * r);
-        EXPECT_NEAR(SaturationFromSampledCore(ratio, kappa4, kappa6), u, 1e-9 * (1.0 + u))
+        EXPECT_NEAR(SaturationFromSampledCore(ratio, kappa4, kappa6), u, 1e-7 * (1.0 + u))
             << kappa4 << " " << kappa6 << " " << u;
       }
     }
