@@ -30,6 +30,15 @@ inline MeParameters Atmosphere(double field_gauss, double inclination_deg, doubl
   return p;
 }
 
+/// The continuum of a noiseless spectrum (its first sample) with a tiny noise level, which keeps the noise
+/// terms (and the debiasing of B_T, weak_field.hpp) out of bias checks.
+inline ContinuumEstimate NoiselessContinuum(const MeSpectrum& m) {
+  ContinuumEstimate c;
+  c.continuum = m.I.front();
+  c.noise_I = c.noise_Q = c.noise_U = c.noise_V = 1e-9;
+  return c;
+}
+
 /// Synthesises the line lower -> upper at rest_nm on `points` samples spanning range_nm (g_s = CODATA).
 inline MeSpectrum SynthesizeMe(const std::string& lower, const std::string& upper, double rest_nm, double range_nm,
                                int points, const MeParameters& p) {

@@ -23,10 +23,6 @@ WeakFieldResult FitTransverse(double eta0, TransverseRegion region, double core,
   mp.s0 = 0.2;
   mp.s1 = 0.8;
   const testing::MeSpectrum m = testing::SynthesizeMe("5P2", "5D2", kLine, 0.08, 321, mp);
-  ContinuumEstimate c;
-  c.continuum = m.I.front();
-  // Noiseless spectra: a tiny noise level keeps the debiasing of B_T (weak_field.hpp) out of these bias checks.
-  c.noise_I = c.noise_Q = c.noise_U = c.noise_V = 1e-9;
   WeakFieldOptions o;
   o.rest_wavelength_nm = kLine;
   o.g_eff = m.pattern.g_eff;
@@ -36,7 +32,7 @@ WeakFieldResult FitTransverse(double eta0, TransverseRegion region, double core,
   o.core_halfwidth_nm = core;
   o.wing_start_nm = wing_start;
   WeakFieldWorkspace work;
-  return WeakFieldEstimate(m.View(), c, o, work);
+  return WeakFieldEstimate(m.View(), testing::NoiselessContinuum(m), o, work);
 }
 
 TEST(TransverseWeakField, WholeLineFitIsFineForAWeakLine) {

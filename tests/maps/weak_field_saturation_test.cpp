@@ -90,9 +90,6 @@ CorrectedFit FitCorrected(double eta0, double damping, double bt_gauss, double m
   mp.doppler_width_nm = 3e-3;
   mp.damping = damping;
   const testing::MeSpectrum m = testing::SynthesizeMe("5P1", "5D0", kLine, 0.06, 60, mp);
-  ContinuumEstimate c;
-  c.continuum = m.I.front();
-  c.noise_I = c.noise_Q = c.noise_U = c.noise_V = 1e-9;  // noiseless: the biases alone
   WeakFieldOptions o;
   o.rest_wavelength_nm = kLine;
   o.g_eff = m.pattern.g_eff;
@@ -100,7 +97,7 @@ CorrectedFit FitCorrected(double eta0, double damping, double bt_gauss, double m
   o.window_halfwidth_nm = 0.02;
   o.corrected_model_error = model_error;
   WeakFieldWorkspace work;
-  return {WeakFieldEstimate(m.View(), c, o, work), bt_gauss};
+  return {WeakFieldEstimate(m.View(), testing::NoiselessContinuum(m), o, work), bt_gauss};
 }
 
 TEST(CorrectedTransverseField, SmallBiasOnCoarselySampledSaturatedLines) {
