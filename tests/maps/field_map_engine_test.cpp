@@ -22,6 +22,24 @@ namespace {
 constexpr double kRest = 630.25;  // nm, air
 constexpr int kNx = 5, kNy = 7, kNw = 61;
 
+// A float64 x, y, lambda, Stokes cube of pixels[y * nx + x] on the grid kRest -+ 0.03 nm (nw samples).
+void WritePixelCube(const std::string& path, const std::vector<testing::Spectra>& pixels, long nx, long ny, long nw) {
+  test::CubeSpec c;
+  c.na = nx;
+  c.nb = ny;
+  c.nw = nw;
+  c.bitpix = -64;
+  c.spectral_cunit = "nm";
+  c.spectral_crval = kRest - 0.03;
+  c.spectral_cdelt = 0.06 / static_cast<double>(nw - 1);
+  c.value = [&pixels, nx](long a, long b, long s, long w) {
+    const auto& px = pixels[static_cast<std::size_t>(b * nx + a)];
+    const std::vector<double>* v[4] = {&px.I, &px.Q, &px.U, &px.V};
+    return (*v[s])[static_cast<std::size_t>(w)];
+  };
+  test::WriteCube(path, c);
+}
+
 // Fields from 30 G (weak) to 2400 G (resolved), so auto uses more than one method; a NaN pixel at (2, 3).
 void WriteCube(const std::string& path) {
   const ZeemanPattern p = ComputeZeemanPattern(ParseLevel("5P1"), ParseLevel("5D0"), LandeOptions{2.0, 1.0});
@@ -38,21 +56,9 @@ void WriteCube(const std::string& path) {
       testing::AddNoise(s, 1e-4, rng);
       pixels.push_back(std::move(s));
     }
-  test::CubeSpec c;
-  c.na = kNx;
-  c.nb = kNy;
-  c.nw = kNw;
-  c.bitpix = -64;
-  c.spectral_cunit = "nm";
-  c.spectral_crval = kRest - 0.03;
-  c.spectral_cdelt = 0.06 / (kNw - 1);
-  c.value = [pixels](long a, long b, long s, long w) {
-    if (a == 2 && b == 3 && w == 7) return std::nan("");
-    const auto& px = pixels[static_cast<std::size_t>(b * kNx + a)];
-    const std::vector<double>* v[4] = {&px.I, &px.Q, &px.U, &px.V};
-    return (*v[s])[static_cast<std::size_t>(w)];
-  };
-  test::WriteCube(path, c);
+  auto& nan_pixel = pixels[static_cast<std::size_t>(3 * kNx + 2)];
+  nan_pixel.I[7] = nan_pixel.Q[7] = nan_pixel.U[7] = nan_pixel.V[7] = std::nan("");
+  WritePixelCube(path, pixels, kNx, kNy, kNw);
 }
 
 FieldMapOptions Options(MapMethod m) {
@@ -159,20 +165,7 @@ TEST(FieldMapEngine, LayoutDoesNotDependOnTheThreadCount) {
   }
   for (double& v : pixels[200].I) v = 1e30;  // far above the level ceiling (median x 10^kAbsurdOrders)
   pixels[4100].I[5] = std::nan("");
-  test::CubeSpec c;
-  c.na = nx;
-  c.nb = ny;
-  c.nw = nw;
-  c.bitpix = -64;
-  c.spectral_cunit = "nm";
-  c.spectral_crval = kRest - 0.03;
-  c.spectral_cdelt = 0.06 / (nw - 1);
-  c.value = [&pixels](long a, long b, long s, long w) {
-    const auto& px = pixels[static_cast<std::size_t>(b * nx + a)];
-    const std::vector<double>* v[4] = {&px.I, &px.Q, &px.U, &px.V};
-    return (*v[s])[static_cast<std::size_t>(w)];
-  };
-  test::WriteCube(path, c);
+  WritePixelCube(path, pixels, nx, ny, nw);
   // The median level by its definition: |I| of every finite sample of the pixels without NaN/Inf (the absurd
   // pixel is inside the float64 type range, so it counts here; it is left out of the mean profile only).
   std::vector<double> levels;
