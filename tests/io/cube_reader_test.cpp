@@ -668,16 +668,22 @@ TEST(CubeReaderDirect, MatchesAstropyValuesOfAstropyWrittenCubes) {
   }
 }
 
+// A 40 x 6 pixel, 30-sample float32 cube in the given axis order: runs long enough for the direct read.
+CubeSpec DirectReadSpec(std::array<test::Role, 4> order) {
+  CubeSpec spec;
+  spec.order = order;
+  spec.na = 40;
+  spec.nb = 6;
+  spec.nw = 30;
+  return spec;
+}
+
 // What the direct read does not take stays with cfitsio (reads_data_directly() false) and reads correctly:
 // scaled floats, integers, doubles, a gzipped file, an image section. (Tile-compressed images are refused by
 // fits_is_compressed_image; neither cfitsio 4 nor astropy 5.2 here writes a compressed 4-D image to test it.)
 TEST(CubeReaderDirect, EverythingElseStaysWithCfitsio) {
   TempDir dir;
-  CubeSpec spec;
-  spec.order = {test::kW, test::kA, test::kS, test::kB};
-  spec.na = 40;
-  spec.nb = 6;
-  spec.nw = 30;
+  const CubeSpec spec = DirectReadSpec({test::kW, test::kA, test::kS, test::kB});
   auto check = [&](const CubeSpec& s, const std::string& path, bool direct) {
     SCOPED_TRACE(path);
     CubeReader reader(path);
@@ -721,11 +727,7 @@ TEST(CubeReaderDirect, EverythingElseStaysWithCfitsio) {
 
 TEST(CubeReaderDirect, FileCutShortAfterOpeningIsAnErrorNamingFileAndRows) {
   TempDir dir;
-  CubeSpec spec;
-  spec.order = {test::kA, test::kW, test::kS, test::kB};
-  spec.na = 40;
-  spec.nb = 6;
-  spec.nw = 30;
+  const CubeSpec spec = DirectReadSpec({test::kA, test::kW, test::kS, test::kB});
   const std::string path = dir.File("cut.fits");
   WriteCube(path, spec);
   CubeReader reader(path);
