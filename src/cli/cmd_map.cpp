@@ -17,6 +17,7 @@
 #include "cli/commands.hpp"
 #include "cli/interrupt.hpp"
 #include "cli/line_selection.hpp"
+#include "cli/notices.hpp"
 #include "cli/map_command.hpp"
 #include "cli/map_file_sink.hpp"
 #include "cli/parallel.hpp"
@@ -273,6 +274,8 @@ void RunMap(const MapArgs& a) {
     std::exit(130);
   }
   if (!IsOutputRank()) return;  // MPI: rank 0 wrote the maps
+  // Shown with -q too: it says how far the error bars can be trusted.
+  if (const std::string few = FewContinuumNotice(maps, o.noise_rel); !few.empty()) Notice(few);
 
   const auto t_write = std::chrono::steady_clock::now();
   const long flagged = static_cast<long>(maps.flagged_pixels);
@@ -429,6 +432,8 @@ std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o) {
       h.keywords.push_back({"AZRANGE", static_cast<long long>(o.disambiguate ? 360 : 180),
                             o.disambiguate ? "B_AZIM in [0, 360) deg: disambiguated" : "B_AZIM in [0, 180) deg: 180 deg ambiguous"});
       h.keywords.push_back({"DETSIG", o.detection_sigma, "B_TRANS detection threshold in sigma"});
+    } else if (h.extname == MapSlotName(kSlotBtransErr)) {
+      h.keywords.push_back({"BTMODERR", o.transverse_model_error, "weak-field B_T model error, fraction of B_T"});
     }
   ImageHdu method = MakeMap(map_names::kMethod, nx, ny, {});
   method.type = FitsPixelType::kInt16;
@@ -458,6 +463,16 @@ std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o) {
   }
   hdus.push_back(quality);
   return hdus;
+}
+
+std::string FewContinuumNotice(const FieldMaps& maps, double given_noise_rel) {
+  if (given_noise_rel > 0.0 || maps.continuum_samples == 0 || maps.continuum_samples >= kFewContinuumSamples) return {};
+  return "zeeline: warning: each pixel's noise, and so every error bar, comes from only " +
+         std::to_string(maps.continuum_samples) + " continuum samples (fewer than " +
+         std::to_string(kFewContinuumSamples) +
+         "): the error bars themselves scatter and their pulls have wide tails (measured: B_LOS pull sd 1.43 "
+         "from 12 samples, 1.05 from 24, 0.96 with the noise given); give the noise with --noise, or use a cube "
+         "with more continuum on either side of the line (docs/methods.md)";
 }
 
 std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o) {

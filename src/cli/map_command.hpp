@@ -60,4 +60,8 @@ std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o);
 /// (slots, method, quality, disambiguation), in their own types, without a copy as doubles.
 std::vector<ImageHdu> MapHdus(const FieldMaps& maps, const FieldMapOptions& o);
 
+/// The caution `map` gives when the per-pixel noise came from fewer than kFewContinuumSamples continuum
+/// samples (field_maps.hpp); empty otherwise and when the noise was given (`given_noise_rel` > 0, --noise).
+std::string FewContinuumNotice(const FieldMaps& maps, double given_noise_rel);
+
 }  // namespace zeeline::cli

@@ -185,6 +185,7 @@ void CubeReader::Impl::Open(const std::string& path) {
 // uncompressed into memory, not an image section or filtered copy), whose size on disk is the size cfitsio
 // found. Anything else stays with cfitsio; so does every header and WCS read.
 void CubeReader::Impl::PrepareDirectRead(const std::string& root) {
+#if defined(__BYTE_ORDER__) && defined(__ORDER_LITTLE_ENDIAN__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
   if (info.bitpix != -32) return;
   int status = 0;
   if (fits_is_compressed_image(f, &status) || status) return;
@@ -208,6 +209,9 @@ void CubeReader::Impl::PrepareDirectRead(const std::string& root) {
   }
   data_fd = fd;
   data_start = datastart;
+#else
+  (void)root;  // the gather's byte swap assumes a little-endian host: elsewhere cfitsio reads everything
+#endif
 }
 
 // Samples first .. first + count - 1 of the data unit (0-based, FITS order) as the file stores them.

@@ -295,7 +295,11 @@ class PixelProcessor {
       out.quality |= kQualityLowTransverse;
     const double k = o_.detection_sigma;
     const bool blos_seen = std::isfinite(out.v[kSlotBlos]) && std::fabs(out.v[kSlotBlos]) > k * out.v[kSlotBlosErr];
-    const bool bt_seen = std::isfinite(out.v[kSlotBtrans]) && out.v[kSlotBtrans] > k * out.v[kSlotBtransErr];
+    // Detection against the noise alone: the weak-field B_T's sigma may carry a model term (weak_field.hpp).
+    const double bt_noise_err = (m == MapMethod::kWeakField || m == MapMethod::kCentreOfGravity) && w.has_btrans
+                                    ? w.btrans_noise_err_gauss
+                                    : out.v[kSlotBtransErr];
+    const bool bt_seen = std::isfinite(out.v[kSlotBtrans]) && out.v[kSlotBtrans] > k * bt_noise_err;
     const bool field_seen = m == MapMethod::kSplitting && std::isfinite(out.v[kSlotField]) &&
                             out.v[kSlotField] > k * out.v[kSlotFieldErr];
     if (!blos_seen && !bt_seen && !field_seen) out.quality |= kQualityLowSignal;
@@ -544,8 +548,9 @@ std::string FieldMapOptions::Validate() const {
   else if (!(wing_start_nm >= 0.0)) m << "wing start = " << wing_start_nm << " nm must be >= 0 (0 = 4.8 Doppler widths)";
   else if (!(consistency_sigma > 0.0)) m << "consistency sigma = " << consistency_sigma << " must be > 0";
   else if (!(transverse_detection >= 0.0)) m << "transverse detection = " << transverse_detection << " must be >= 0";
-  else if (!(transverse_model_error >= 0.0 && transverse_model_error < 1.0))
-    m << "transverse model error = " << transverse_model_error << " must be in [0, 1)";
+  else if (!(transverse_model_error >= 0.0 && transverse_model_error <= 0.2))
+    m << "transverse model error = " << transverse_model_error
+      << " must be in [0, 0.2] (more would let the model term decide sigma-based thresholds)";
   else {
     for (std::size_t i = 0; i < extra_lines.size(); ++i) {
       const MeLine& l = extra_lines[i];
@@ -826,6 +831,7 @@ RunStatus ComputeFieldMaps(CubeReader& reader, const FieldMapOptions& o, const F
     maps.read_seconds = maps.read_wait_seconds = seconds_since(t0);  // nothing to overlap with yet
   }
   engine.ChooseLayout(tile);
+  maps.continuum_samples = engine.layout().continuum.size();
 
   // Double buffering: the next tile is read (cfitsio) on a second thread while the estimators work on the
   // current one. At most one read is in flight, so the reader is never used concurrently.

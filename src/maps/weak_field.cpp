@@ -38,8 +38,8 @@ std::string WeakFieldOptions::Validate() const {
     m << "core_halfwidth_nm = " << core_halfwidth_nm << " must be >= 0";
   else if (!(wing_start_nm >= 0.0))
     m << "wing_start_nm = " << wing_start_nm << " must be >= 0 (0 = 4.8 Doppler widths)";
-  else if (!(corrected_model_error >= 0.0 && corrected_model_error < 1.0))
-    m << "corrected_model_error = " << corrected_model_error << " must be in [0, 1)";
+  else if (!(corrected_model_error >= 0.0 && corrected_model_error <= 0.2))
+    m << "corrected_model_error = " << corrected_model_error << " must be in [0, 0.2]";
   return m.str();
 }
 
@@ -228,6 +228,7 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
       r.btrans_sq_err_gauss2 = sa;
       r.btrans_gauss = std::sqrt(p0);
       r.btrans_err_gauss = sa / std::sqrt(4.0 * std::max(p0 - 0.8 * sa, 0.0) + 0.8 * sa);
+      r.btrans_noise_err_gauss = r.btrans_err_gauss;
       r.saturation_corrected = correct;
       if (correct && o.corrected_model_error > 0.0) {
         // Model accuracy of the saturation correction (file comment), in quadrature with the noise.

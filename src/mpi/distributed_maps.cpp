@@ -451,6 +451,7 @@ RunStatus ComputeFieldMapsDistributed(CubeReader& reader, const FieldMapOptions&
   BroadcastLayout(layout);
   MPI_Bcast(&first_row, 1, MPI_INT64_T, 0, MPI_COMM_WORLD);
   engine.set_layout(layout);
+  maps.continuum_samples = layout.continuum.size();
 
   const TaskPlan plan = PlanTasks(info.ny, static_cast<long>(first_row), reader.rows_per_tile(), size, d);
   report.ranks = size;

@@ -250,6 +250,10 @@ py::dict Map(const py::object& cube, const py::object& wavelength_nm, const std:
     PyErr_SetNone(PyExc_KeyboardInterrupt);
     throw py::error_already_set();
   }
+  if (!hdus.empty()) {
+    const std::string few = cli::FewContinuumNotice(maps, args.noise);
+    if (!few.empty() && PyErr_WarnEx(PyExc_UserWarning, few.c_str(), 1) != 0) throw py::error_already_set();
+  }
   py::dict out;
   for (const ImageHdu& h : hdus) out[py::str(h.extname)] = MapArray(h, maps);
   return out;

@@ -9,8 +9,9 @@ and fitsverify (Debian fitsverify).
   resolved strong pixels' B_TOTAL within 10 % (the three-Gaussian splitting fit on a saturated ME line).
 * Contracts: an existing output is not overwritten (exit 3), an I+V cube is refused for transverse maps
   (exit 1, message names the file and Q and U), a bad method name exits 2.
+* A cube with fewer than 16 continuum samples gets the few-continuum warning, unless --noise is given.
 * --transverse-model-error: B_TRANS_SIGMA = hypot(noise sigma, f B_TRANS) (docs/methods.md), B_TRANS unchanged;
-  a value outside [0, 1) exits 2.
+  QUALITY unchanged (detection uses the noise alone); a value outside [0, 0.2] exits 2.
 Usage: /usr/bin/python3 map_cli_check.py /path/to/zeeline
 """
 import os
@@ -154,7 +155,8 @@ with tempfile.TemporaryDirectory() as tmp:
     check(not os.path.exists(os.path.join(tmp, "x.fits")), "no output after a refused command")
 
     # --transverse-model-error (docs/methods.md): weak-field B_TRANS_SIGMA = hypot(noise sigma, f * B_TRANS) for
-    # the saturation-corrected B_T; the noise sigma comes from the run with f = 0 (same B_TRANS, same flags).
+    # the saturation-corrected B_T; the noise sigma comes from the run with f = 0 (same B_TRANS, and the same
+    # QUALITY: detection tests use the noise alone).
     wfa0, wfa5 = os.path.join(tmp, "wfa0.fits"), os.path.join(tmp, "wfa5.fits")
     run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "wfa", "--transverse-model-error", "0",
          "-o", wfa0, "-q"])
@@ -164,13 +166,26 @@ with tempfile.TemporaryDirectory() as tmp:
         sel = np.isfinite(bt) & (bt > 0)
         check(sel.sum() > 100, f"weak-field B_TRANS pixels on the demo cube: {sel.sum()}")
         check(np.array_equal(bt, b["B_TRANS"].data.astype(float), equal_nan=True), "B_TRANS does not depend on the model term")
+        check(np.array_equal(a["QUALITY"].data, b["QUALITY"].data), "QUALITY does not depend on the model term")
         s0, s5 = a["B_TRANS_SIGMA"].data.astype(float)[sel], b["B_TRANS_SIGMA"].data.astype(float)[sel]
         expect = np.hypot(s0, 0.05 * bt[sel])
         # Saturation-corrected pixels follow the formula; the rest (no measured core) keep the noise sigma.
         follows = np.isclose(s5, expect, rtol=1e-4) | np.isclose(s5, s0, rtol=1e-6)
         check(follows.all(), f"B_TRANS_SIGMA = hypot(noise, 0.05 B_T): {np.count_nonzero(~follows)} pixels differ")
         check(np.isclose(s5, expect, rtol=1e-4).mean() > 0.5, "most demo pixels carry the model term")
-    p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--transverse-model-error", "1.5", "-o",
+    # Few continuum samples (docs/methods.md): a 40-sample, 0.04 nm cube of the same scene leaves fewer than 16,
+    # and map says so (with -q too) unless the noise is given; the 96-sample cube above has enough.
+    narrow = os.path.join(tmp, "narrow.fits")
+    run(["simulate", "--demo", "--nx", "32", "--ny", "24", "--line", "FeI_6302", "--catalog", CATALOG, "--seed", "3",
+         "--range", "0.04nm", "--points", "40", "-o", narrow, "-q"])
+    p = run(["map", narrow, "--line", "FeI_6302", "--catalog", CATALOG, "-o", os.path.join(tmp, "n1.fits"), "-q"])
+    check("continuum samples" in p.stderr and "--noise" in p.stderr, f"few-continuum warning: {p.stderr!r}")
+    p = run(["map", narrow, "--line", "FeI_6302", "--catalog", CATALOG, "--noise", "1e-3", "-o",
+             os.path.join(tmp, "n2.fits"), "-q"])
+    check("continuum samples" not in p.stderr, f"no few-continuum warning with --noise: {p.stderr!r}")
+    p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "-o", os.path.join(tmp, "n3.fits"), "-q"])
+    check("continuum samples" not in p.stderr, f"no few-continuum warning on the 96-sample cube: {p.stderr!r}")
+    p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--transverse-model-error", "0.3", "-o",
              os.path.join(tmp, "x.fits")], expect_rc=2)
     check("transverse model error" in p.stderr, f"bad --transverse-model-error message: {p.stderr!r}")
 

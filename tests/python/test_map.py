@@ -185,3 +185,18 @@ def test_the_maps_do_not_depend_on_the_thread_count():
     sub = np.ascontiguousarray(data[:, :, Y0:Y1, X0:X1])
     one = zeeline.map(sub, wavelength_nm=wl, method="auto", threads=1, **FE)
     _assert_same_maps(zeeline.map(sub, wavelength_nm=wl, method="auto", threads=2, **FE), one)
+
+
+def test_few_continuum_samples_give_a_warning_unless_the_noise_is_given():
+    # docs/methods.md, "Few continuum samples": the central part of the demo's spectral range leaves fewer than
+    # 16 continuum samples; the CLI warns on stderr, the module with a UserWarning.
+    wl, data = _demo_arrays()
+    lo, hi = len(wl) // 2 - 16, len(wl) // 2 + 16
+    sub = np.ascontiguousarray(data[:, lo:hi, Y0:Y1, X0:X1])
+    with pytest.warns(UserWarning, match="continuum samples"):
+        zeeline.map(sub, wavelength_nm=wl[lo:hi], method="wfa", **FE)
+    import warnings
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        zeeline.map(sub, wavelength_nm=wl[lo:hi], method="wfa", noise=1e-3, **FE)
+        zeeline.map(np.ascontiguousarray(data[:, :, Y0:Y1, X0:X1]), wavelength_nm=wl, method="wfa", **FE)

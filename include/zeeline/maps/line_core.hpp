@@ -21,8 +21,8 @@
 // The curvature is a least-squares parabola through the 5-9 samples around the minimum (the same for
 // emission lines with the signs reversed); emission lines are treated as optically thin (u = 0).
 // Sampling: on a grid of a few samples per Doppler width the parabola spans +-0.7 w or more, where the higher
-// terms of the core are not small, and its curvature comes out low (u 25-55 % low at eta0 = 3-20 with 3
-// samples per w; tests/maps/weak_field_saturation_test.cpp). With y = x^2 / w^2 and E = u e^-y the model is
+// terms of the core are not small, and its curvature comes out high (12-25 % at eta0 = 3-20 with 3 samples
+// per w), so R_m is high and u 25-55 % low (tests/maps/weak_field_saturation_test.cpp). With y = x^2 / w^2 and E = u e^-y the model is
 // I = S0 + mu S1 / (1 + E), whose expansion about the centre I = I_min + a2 x^2 + a4 x^4 + a6 x^6 has
 //   a4 / a2 = (u - 1) / (2 (1 + u) w^2),   a6 / a2 = (u^2 - 4u + 1) / (6 (1 + u)^2 w^4)   (derived here)
 // and a least-squares parabola through samples x_j picks up c2 = a2 + K4 a4 + K6 a6, K_n its x^2 coefficient
@@ -30,8 +30,9 @@
 // and kappa6 = K6 / (6 x_h^4), the measured ratio R_m = c2 x_h^2 / d satisfies
 //   R_m = R(u) C(u),   C(u) = 1 + kappa4 (u - 1) R(u) + kappa6 (u^2 - 4u + 1) R(u)^2
 // which SaturationFromSampledCore solves for u on the branch that starts at the plain reading u0 = R^-1(R_m).
-// The series is trusted only where the lift is upwards (u0 > kSampledCoreFrom = 1.5, a4 > 0); thinner cores
-// keep u0, where the saturation correction of B_T is small anyway. On the sampled model: u within 4 % for
+// The series is used only where the lift is upwards: u0 > kSampledCoreFrom = 1 (a4 > 0) and
+// F(u0) = R_m (C(u0) - 1) > 0. Where u0 crosses either condition F(u0) passes through 0, so the root starts at
+// u0 itself and u is continuous; thinner cores keep u0, where the saturation correction of B_T is small anyway. On the sampled model: u within 4 % for
 // eta0 = 3-20 at 3 samples per w (against 25-55 % low before), w within 1.1 %.
 // Requires: the line resolved by >= 5 samples across its core and its depth well above the noise; otherwise
 // ok = false and callers fall back to their textbook forms.
@@ -59,8 +60,9 @@ LineCoreShape MeasureLineCore(const PixelSpectrum& s, double continuum, double c
 /// The model relation R(u) = ln(2 + u) / (1 + u) above, and its inverse (u = 0 for R >= ln 2).
 double CoreShapeRatio(double saturation);
 double SaturationFromCoreShape(double ratio);
+/// Plain readings u0 above this are refined for sampling (file comment).
+constexpr double kSampledCoreFrom = 1.0;
 /// u from a ratio measured with a sampled parabola with the higher terms kappa4, kappa6 (file comment).
-constexpr double kSampledCoreFrom = 1.5;
 double SaturationFromSampledCore(double ratio, double kappa4, double kappa6);
 
 }  // namespace zeeline

@@ -87,7 +87,8 @@ struct WeakFieldOptions {
   double core_halfwidth_nm = 0.0;     ///< kCore/kCoreAndWings: |l - l_c| <= this; 0 = whole window
   double wing_start_nm = 0.0;         ///< kWings/kCoreAndWings: |l - l_c| >= this; 0 = 4.8 Doppler widths (line_core.hpp)
   /// kCorrected with a measured core: 1-sigma relative model accuracy of B_T, added in quadrature to its noise
-  /// error (the file comment); 0 = noise only. In [0, 1).
+  /// error (the file comment); 0 = noise only. In [0, 0.2]: more would let the model term decide the
+  /// sigma-based thresholds that read B_TRANS_SIGMA from the maps (quicklook fading, disambiguation).
   double corrected_model_error = 0.05;
 
   std::string Validate() const;
@@ -104,6 +105,7 @@ struct WeakFieldResult {
   double noise_dof = 0.0;       ///< of the noise estimate the chi2 values are scaled by (pixel_spectrum.hpp)
   double btrans_snr = 0.0;      ///< |a| / s: signal-to-noise of B_T^2 (before debiasing; noise only)
   double btrans_sq_err_gauss2 = 0.0;  ///< sigma(B_T^2) (G^2): the noise s, with the model term when corrected
+  double btrans_noise_err_gauss = 0.0;  ///< sigma(B_T) from the noise alone (detection tests use it)
   bool saturation_corrected = false;  ///< B_T from the saturation-corrected form (kCorrected with a core)
   bool has_blos = false, has_btrans = false;
   bool ok = false;              ///< false: too few samples or no line signal in the window
