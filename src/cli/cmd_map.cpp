@@ -213,7 +213,8 @@ void RunMap(const MapArgs& a) {
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
      << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
      << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me << "|"
-     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.transverse_model_error << "|" << o.consistency_sigma << "|" << a.tile_mib;
+     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.transverse_model_error << "|"
+     << o.consistency_sigma << "|" << a.tile_mib;
   for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;
   run.fingerprint = fp.str();
@@ -466,7 +467,8 @@ std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o) {
 }
 
 std::string FewContinuumNotice(const FieldMaps& maps, double given_noise_rel) {
-  if (given_noise_rel > 0.0 || maps.continuum_samples == 0 || maps.continuum_samples >= kFewContinuumSamples) return {};
+  if (given_noise_rel > 0.0 || maps.continuum_samples == 0 || maps.continuum_samples >= kFewContinuumSamples)
+    return {};
   return "zeeline: warning: each pixel's noise, and so every error bar, comes from only " +
          std::to_string(maps.continuum_samples) + " continuum samples (fewer than " +
          std::to_string(kFewContinuumSamples) +

@@ -546,18 +546,23 @@ void CubeReader::Impl::ReadRaw(long y_begin, long y_count, bool force_float, Raw
 }
 
 namespace {
-// A sample as a double: as stored, or (kSwap) a big-endian float32 of the file, byte-swapped first. The
-// swap moves bytes only, so NaN payloads, -0 and subnormals arrive as cfitsio's swap gives them.
+// A float32 of the file (big-endian) in native order. The swap moves bytes only, so NaN payloads, -0 and
+// subnormals arrive as cfitsio's swap gives them.
+inline float FromFileOrder(float stored) {
+  std::uint32_t u;
+  std::memcpy(&u, &stored, sizeof u);
+  u = __builtin_bswap32(u);
+  float v;
+  std::memcpy(&v, &u, sizeof v);
+  return v;
+}
+
+// A sample as a double: as stored, or (kSwap) a float32 in the file's byte order.
 template <bool kSwap, class S>
 inline double Sample(const S* p) {
   if constexpr (kSwap) {
     static_assert(std::is_same_v<S, float>, "only float32 samples are read in the file's byte order");
-    std::uint32_t u;
-    std::memcpy(&u, p, sizeof u);
-    u = __builtin_bswap32(u);
-    float v;
-    std::memcpy(&v, &u, sizeof v);
-    return static_cast<double>(v);
+    return static_cast<double>(FromFileOrder(*p));
   } else {
     return static_cast<double>(*p);
   }
@@ -707,12 +712,7 @@ template <class T>
 void CubeReader::Impl::Read(long y_begin, long y_count, CubeTileT<T>& tile) {
   ReadRaw(y_begin, y_count, std::is_same_v<T, float>, scratch);
   if (scratch.file_byte_order) {  // the direct read: to native floats in place before the reorder
-    for (float& v : scratch.data_f) {
-      std::uint32_t u;
-      std::memcpy(&u, &v, sizeof u);
-      u = __builtin_bswap32(u);
-      std::memcpy(&v, &u, sizeof v);
-    }
+    for (float& v : scratch.data_f) v = FromFileOrder(v);
     scratch.file_byte_order = false;
   }
   const int ns = info.n_stokes();

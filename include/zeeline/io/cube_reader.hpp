@@ -130,7 +130,8 @@ using CubeTileF = CubeTileT<float>;
 /// A block of whole spatial rows in FITS axis order, no reorder: samples as float for float32 and 8/16-bit
 /// integer data (exact) and as double otherwise (BSCALE/BZERO applied, BLANK -> NaN), as cfitsio delivers
 /// them, except that a plain float32 cube read directly (file_byte_order) keeps the file's big-endian bytes in
-/// data_f: read samples through Gather/GatherBlock, which swap, not from data_f. Gather() copies one pixel's spectra into the pixel-major order of CubeTile. For a consumer that
+/// data_f: read samples through Gather/GatherBlock, which swap, not from data_f. Gather() copies one pixel's
+/// spectra into the pixel-major order of CubeTile. For a consumer that
 /// visits every pixel once (the map runner) this replaces the reorder pass of ReadRows: the gather runs in
 /// the consumer's cache and threads, and the tile holds 4 bytes per sample instead of 8.
 struct RawCubeTile {

@@ -22,8 +22,9 @@
 // emission lines with the signs reversed); emission lines are treated as optically thin (u = 0).
 // Sampling: on a grid of a few samples per Doppler width the parabola spans +-0.7 w or more, where the higher
 // terms of the core are not small, and its curvature comes out high (12-25 % at eta0 = 3-20 with 3 samples
-// per w), so R_m is high and u 25-55 % low (tests/maps/weak_field_saturation_test.cpp). With y = x^2 / w^2 and E = u e^-y the model is
-// I = S0 + mu S1 / (1 + E), whose expansion about the centre I = I_min + a2 x^2 + a4 x^4 + a6 x^6 has
+// per w), so R_m is high and u 25-55 % low (tests/maps/weak_field_saturation_test.cpp). With y = x^2 / w^2
+// and E = u e^-y the model is I = S0 + mu S1 / (1 + E), whose expansion about the centre
+// I = I_min + a2 x^2 + a4 x^4 + a6 x^6 has
 //   a4 / a2 = (u - 1) / (2 (1 + u) w^2),   a6 / a2 = (u^2 - 4u + 1) / (6 (1 + u)^2 w^4)   (derived here)
 // and a least-squares parabola through samples x_j picks up c2 = a2 + K4 a4 + K6 a6, K_n its x^2 coefficient
 // when fitted to (x_j - delta)^n (delta: the fitted vertex). With w^2 = x_h^2 / ln(2 + u), kappa4 = K4 / (2 x_h^2)
@@ -32,8 +33,9 @@
 // which SaturationFromSampledCore solves for u on the branch that starts at the plain reading u0 = R^-1(R_m).
 // The series is used only where the lift is upwards: u0 > kSampledCoreFrom = 1 (a4 > 0) and
 // F(u0) = R_m (C(u0) - 1) > 0. Where u0 crosses either condition F(u0) passes through 0, so the root starts at
-// u0 itself and u is continuous; thinner cores keep u0, where the saturation correction of B_T is small anyway. On the sampled model: u within 4 % for
-// eta0 = 3-20 at 3 samples per w (against 25-55 % low before), w within 1.1 %.
+// u0 itself and u is continuous; thinner cores keep u0, where the saturation correction of B_T is small
+// anyway. On the sampled model: u within 4 % for eta0 = 3-20 at 3 samples per w (against 25-55 % low
+// before), w within 1.1 %.
 // Requires: the line resolved by >= 5 samples across its core and its depth well above the noise; otherwise
 // ok = false and callers fall back to their textbook forms.
 #pragma once
