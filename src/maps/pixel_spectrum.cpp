@@ -142,9 +142,33 @@ ContinuumEstimate EstimateContinuum(const PixelSpectrum& s, const std::vector<st
     c.noise_I = c.noise_Q = c.noise_U = c.noise_V = sigma_rel;
     c.noise_dof = HUGE_VAL;
   } else {
-    c.noise_dof = 0.514 * static_cast<double>(c.samples);
+    c.noise_dof = NoiseDegreesOfFreedom(samples);
   }
   return c;
+}
+
+double NoiseDegreesOfFreedom(const std::vector<std::size_t>& samples) {
+  // Second differences of white noise: var(d) = 6 sigma^2, correlation -2/3 at lag 1 and 1/6 at lag 2 within a
+  // run of consecutive samples, none across runs. For S = sum of the m squared differences (d Gaussian,
+  // cov(d_i^2, d_j^2) = 2 cov(d_i, d_j)^2): var(S) = 72 sigma^4 sum over runs of
+  // [m_r + (8/9)(m_r - 1)+ + (1/18)(m_r - 2)+], E[S] = 6 m sigma^2, and dof = 2 E[S]^2 / var(S).
+  double m = 0.0, v = 0.0, run = 0.0;
+  auto close_run = [&] {
+    v += run + (8.0 / 9.0) * std::max(run - 1.0, 0.0) + (1.0 / 18.0) * std::max(run - 2.0, 0.0);
+    m += run;
+    run = 0.0;
+  };
+  for (std::size_t j = 1; j + 1 < samples.size(); ++j) {
+    if (samples[j - 1] + 1 == samples[j] && samples[j] + 1 == samples[j + 1]) {
+      run += 1.0;
+    } else if (run > 0.0) {
+      close_run();
+    }
+  }
+  close_run();
+  // Fewer than 3 differences: NoiseSigmas falls back to the standard deviation about the mean (n - 1 dof).
+  if (m < 3.0) return samples.size() > 1 ? static_cast<double>(samples.size() - 1) : 0.0;
+  return m * m / v;
 }
 
 }  // namespace zeeline

@@ -30,9 +30,7 @@ struct ContinuumEstimate {
   double continuum = 0.0;
   double noise_I = 0.0, noise_Q = 0.0, noise_U = 0.0, noise_V = 0.0;
   std::size_t samples = 0;  ///< continuum samples used
-  /// Degrees of freedom of the noise estimate: sigma^2 from n second differences scatters like chi2 with
-  /// 0.514 n dof (white noise: the differences have correlations -2/3 and 1/6 at lags 1 and 2, so
-  /// var(sigma^2)/sigma^4 = 3.89/n; derived here); infinite when the noise was given.
+  /// Degrees of freedom of the noise estimate (NoiseDegreesOfFreedom); infinite when the noise was given.
   double noise_dof = 0.0;
 };
 
@@ -54,6 +52,13 @@ std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_
 /// Continuum samples: all samples farther than `exclude_halfwidth_nm` from `centre_nm`.
 std::vector<std::size_t> ContinuumSamples(const double* wavelength_nm, std::size_t n, double centre_nm,
                                           double exclude_halfwidth_nm);
+
+/// Effective degrees of freedom of the noise variance from second differences over `continuum_samples`
+/// (Satterthwaite: 2 E[s^2]^2 / var(s^2), for white Gaussian noise, finite samples). The m differences of a run
+/// of consecutive samples are correlated (-2/3 at lag 1, 1/6 at lag 2), so a long run gives 18/35 m = 0.514 m dof, not m,
+/// and each break between runs adds a little (exact sum in pixel_spectrum.cpp; derived here). With fewer than
+/// 3 differences the noise is the standard deviation about the mean: n - 1 dof.
+double NoiseDegreesOfFreedom(const std::vector<std::size_t>& continuum_samples);
 
 /// Continuum level and noise from the given samples. `given_noise_rel` > 0 overrides the measured noise
 /// for Q, U, V (and I) with given_noise_rel * continuum.

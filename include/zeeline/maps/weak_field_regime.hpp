@@ -15,8 +15,9 @@
 //   3. the shape test: the weak-field model must describe the observed profiles. The reduced chi2 of V
 //      against -C g_eff B_LOS dI/dl, and of Q, U against the transverse model, must not exceed
 //      1 + consistency_sigma * sqrt(2 / dof + 2 / dof_noise): the chi2 is scaled by a noise variance
-//      estimated from n continuum samples (0.514 n degrees of freedom, pixel_spectrum.hpp), so it scatters
-//      like an F(dof, dof_noise) variable around 1 with that relative variance (normal approximation). A field beyond the weak regime separates the V lobes and reshapes Q, U
+//      estimated from the continuum's second differences (dof_noise: NoiseDegreesOfFreedom, pixel_spectrum.hpp),
+//      so it scatters like an F(dof, dof_noise) variable around 1 with that relative variance (normal
+//      approximation). A field beyond the weak regime separates the V lobes and reshapes Q, U
 //      whatever the line's saturation, so this catches what r misses when the strength scale is
 //      underestimated.
 // A pixel passes when 2 and 3 hold. Measured thresholds and counts: docs/methods.md.
