@@ -9,6 +9,7 @@
 # WFA: a 478.6 MiB float32 cube (demo scene, 792 x 660 pixels, 60 wavelengths, IQUV) made by
 # `zeeline simulate --demo`, plus copies with other axis orders (bench_cube_tool reshape). For each:
 #   floor   the best time to read every sample as float with cfitsio alone (bench_cube_tool floor),
+#   bare    (xyls only) the bare arithmetic of the weak-field fits with no checks (bench_cube_tool bare), on one core
 #   wfa     the best wall time of `zeeline map --method wfa --threads 2` (and --threads 1), its ratio to the
 #           floor, and its peak RSS (/usr/bin/time %M).
 # ME: a 12 000-pixel cube of mixed strong (1-3 kG), moderate (0.3-1 kG) and weak (10-300 G) fields
@@ -62,6 +63,10 @@ if [[ " $PARTS " == *" wfa "* ]]; then
       "$t1" "$(echo "$t1 / $floor" | bc -l)" "$r2"
     [ -n "$summary" ] && echo "       $summary"
   done
+  # What any weak-field map must at least compute (bench_cube_tool bare: the five sums and the per-pixel
+  # B_LOS, B_T, azimuth with the pixels in vector lanes, no checks or error bars), on one core.
+  bare=$("$TOOL" bare "$CUBE" "$REPEATS" | awk '{print $2}')
+  echo "bare weak-field arithmetic of xyls on one core: $bare s (the per-pixel chain of map is this plus its checks)"
   if [ "${ZL_BENCH_BIG:-0}" = 1 ]; then
     BIG=$WORK/wfa_big.fits
     [ -f "$BIG" ] || "$TOOL" reshape "$CUBE" "$BIG" xyls 9 > /dev/null
