@@ -9,7 +9,8 @@
 # WFA: a 478.6 MiB float32 cube (demo scene, 792 x 660 pixels, 60 wavelengths, IQUV) made by
 # `zeeline simulate --demo`, plus copies with other axis orders (bench_cube_tool reshape). For each:
 #   floor   the best time to read every sample as float with cfitsio alone (bench_cube_tool floor),
-#   bare    (xyls only) the bare arithmetic of the weak-field fits with no checks (bench_cube_tool bare), on one core
+#   bare    (xyls only) the bare arithmetic of the weak-field fits with no checks (bench_cube_tool bare), on one core,
+#           and with the passes of map's checks added (bare --checks): what a pixels-in-lanes design would cost
 #   wfa     the best wall time of `zeeline map --method wfa --threads 2` (and --threads 1), its ratio to the
 #           floor, and its peak RSS (/usr/bin/time %M).
 # ME: a 12 000-pixel cube of mixed strong (1-3 kG), moderate (0.3-1 kG) and weak (10-300 G) fields
@@ -65,8 +66,10 @@ if [[ " $PARTS " == *" wfa "* ]]; then
   done
   # What any weak-field map must at least compute (bench_cube_tool bare: the five sums and the per-pixel
   # B_LOS, B_T, azimuth with the pixels in vector lanes, no checks or error bars), on one core.
+  # With --checks, the passes of map's checks added in the same layout (what a pixels-in-lanes rewrite would cost).
   bare=$("$TOOL" bare "$CUBE" "$REPEATS" | awk '{print $2}')
-  echo "bare weak-field arithmetic of xyls on one core: $bare s (the per-pixel chain of map is this plus its checks)"
+  lanes=$("$TOOL" bare "$CUBE" "$REPEATS" --checks | awk '{print $2}')
+  echo "pixels in vector lanes, xyls, one core: bare weak-field sums $bare s; with the checks' passes $lanes s"
   if [ "${ZL_BENCH_BIG:-0}" = 1 ]; then
     BIG=$WORK/wfa_big.fits
     [ -f "$BIG" ] || "$TOOL" reshape "$CUBE" "$BIG" xyls 9 > /dev/null
