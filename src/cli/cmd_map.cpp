@@ -341,7 +341,7 @@ void AddMapComputeOptions(CLI::App* cmd, MapArgs& a) {
   cmd->add_option("--resolution-ratio", a.resolution_ratio, "splitting/width above which sigma groups are resolved")->capture_default_str();
   cmd->add_option("--detection-sigma", a.detection_sigma, "LOW_SIGNAL below this many sigma")->capture_default_str();
   cmd->add_option("--transverse-detection", a.transverse_detection,
-                  "LOW_TRANSVERSE where the weak-field B_T^2 is below this many of its sigma")
+                  "LOW_TRANSVERSE where B_T^2 (weak-field or Milne-Eddington) is below this many of its sigma")
       ->capture_default_str();
   cmd->add_option("--transverse-model-error", a.transverse_model_error,
                   "model accuracy of the saturation-corrected weak-field B_T as a fraction of B_T, added in quadrature "
