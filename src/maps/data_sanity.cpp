@@ -137,6 +137,12 @@ std::uint32_t CheckSampleRange(const PixelSpectrum& s, const DataSanityLimits& l
 
 std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::size_t>& continuum_samples,
                                const DataSanityLimits& limits) {
+  ContinuumEstimate unused;
+  return CheckPixelSanity(s, MakeContinuumRuns(continuum_samples), limits, unused);
+}
+
+std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const ContinuumRuns& continuum_runs,
+                               const DataSanityLimits& limits, ContinuumEstimate& continuum) {
   // Full Stokes (the map's case): the range test and the |X| - I maxima in one pass over the samples.
   double excess[3] = {-HUGE_VAL, -HUGE_VAL, -HUGE_VAL};
   const bool full = s.Q && s.U && s.V;
@@ -144,19 +150,27 @@ std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::si
     const std::uint32_t range = CheckSampleRange(s, limits);
     if (range) return range;
   }
-  // Continuum level: the mean of I over the continuum samples (as EstimateContinuum, without the noise).
+  // Continuum level: the mean of I over the continuum samples, every one finite here (so EstimateContinuum's
+  // mean, which skips non-finite samples, is the same number).
   double sum = 0.0;
-  for (std::size_t i : continuum_samples) sum += s.I[i];
-  const double ic = continuum_samples.empty() ? 0.0 : sum / static_cast<double>(continuum_samples.size());
+  for (const SampleRange& r : continuum_runs.runs)
+    for (std::size_t i = r.begin; i < r.end; ++i) sum += s.I[i];
+  const std::size_t ns = continuum_runs.samples;
+  const double ic = ns == 0 ? 0.0 : sum / static_cast<double>(ns);
   if (!(ic > 0.0)) return kQualityNonPositiveI;
-  // The largest |X| - I over Q, U, V; real data stay far below zero, so the noise is only estimated for a
-  // pixel that comes close (the common case costs one pass).
+  // The noise, which the test below may need and the estimators of a usable pixel always do: measured once.
+  // (A sum that is not finite can only come from an infinite sample let through by an infinite limit, which
+  // EstimateContinuum's mean skips: it is then left to that mean.)
+  continuum = std::isfinite(sum) ? EstimateContinuumAtLevel(s, continuum_runs, ic, limits.noise_rel)
+                                 : EstimateContinuum(s, continuum_runs, limits.noise_rel);
+  // The largest |X| - I over Q, U, V; real data stay far below zero, so the noise test is only made for a
+  // pixel that comes close.
   const double rounding = 1e-6 * ic;
   auto max_excess = [&](const double* x) { return x ? MaxExcess(x, s.I, s.n) : -HUGE_VAL; };
   const double eq = full ? excess[0] : max_excess(s.Q), eu = full ? excess[1] : max_excess(s.U),
                ev = full ? excess[2] : max_excess(s.V);
   if (std::max({eq, eu, ev}) <= rounding) return 0;
-  const ContinuumEstimate c = EstimateContinuum(s, continuum_samples, limits.noise_rel);
+  const ContinuumEstimate& c = continuum;
   // The difference |X| - I carries the noise of both.
   auto tol = [&](double sigma_x) {
     const double sigma = std::hypot(sigma_x, c.noise_I);

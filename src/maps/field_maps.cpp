@@ -140,8 +140,9 @@ class PixelProcessor {
     cog_work_.Prepare(wavelength_nm, n, cog_);
   }
 
-  // `rejected`: QUALITY bits of the data-sanity check (data_sanity.hpp); such a pixel is not inverted.
-  void Process(const PixelSpectrum& s, std::uint32_t rejected, PixelOut& out) {
+  // `rejected`: QUALITY bits of the data-sanity check (data_sanity.hpp); such a pixel is not inverted. `c`: the
+  // continuum estimate that check made (used only when rejected is 0).
+  void Process(const PixelSpectrum& s, std::uint32_t rejected, const ContinuumEstimate& c, PixelOut& out) {
     for (float& x : out.v) x = kNaN;
     out.method = 0;
     out.quality = 0;
@@ -150,7 +151,6 @@ class PixelProcessor {
       out.quality = static_cast<std::int32_t>(rejected);
       return;
     }
-    const ContinuumEstimate c = EstimateContinuum(s, lay_.continuum, o_.noise_rel);
     if (!std::isfinite(c.continuum)) {
       out.quality = kQualityNoContinuum;
       return;
@@ -755,6 +755,7 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
   std::int64_t counts[5] = {0, 0, 0, 0, 0};
   std::int64_t me_iterations = 0;
   const DataSanityLimits sanity = MakeSanityLimits(info_.bitpix, layout_.median_level, o_.noise_rel);
+  const ContinuumRuns continuum_runs = MakeContinuumRuns(layout_.continuum);
 #pragma omp parallel num_threads(threads)
   {
     PixelProcessor proc(o_, layout_, has_qu_, has_v_, inverter_.get(), info_.wavelength_nm.data(), nw);
@@ -776,7 +777,9 @@ void FieldMapEngine::ComputePixels(const Source& source, long y0, FieldMaps& map
         s.Q = has_qu_ ? spectra + static_cast<std::size_t>(sq_) * nw : nullptr;
         s.U = has_qu_ ? spectra + static_cast<std::size_t>(su_) * nw : nullptr;
         s.V = has_v_ ? spectra + static_cast<std::size_t>(sv_) * nw : nullptr;
-        proc.Process(s, CheckPixelSanity(s, layout_.continuum, sanity), out);
+        ContinuumEstimate c;
+        const std::uint32_t rejected = CheckPixelSanity(s, continuum_runs, sanity, c);
+        proc.Process(s, rejected, c, out);
         const std::size_t g = static_cast<std::size_t>(y0 * info_.nx + p);
         for (int k = 0; k < kSlotCount; ++k) maps.slots[static_cast<std::size_t>(k)][g] = out.v[k];
         maps.method[g] = out.method;

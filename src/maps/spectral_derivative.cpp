@@ -120,43 +120,61 @@ void DerivativeStencil::Prepare(const double* x, std::size_t n) {
   }
 }
 
-template <int kOrder>
-void DerivativeStencil::Run(const double* f, double* out) const {
-  if (n_ < 3) {
-    for (std::size_t i = 0; i < n_; ++i) out[i] = std::nan("");
-    return;
-  }
+template <class Edge, class Five>
+void DerivativeStencil::ForEachSample(std::size_t begin, std::size_t end, Edge edge, Five five) const {
   // Samples outside the five-point run: [0, five_begin) and [five_end, n) (all of them when the run is empty).
   const std::size_t head = five_end_ > five_begin_ ? five_begin_ : n_;
-  for (std::size_t i = 0; i < head; ++i) out[i] = Apply(points_[i], f, i, kOrder, den1_[i], den2_[i]);
-  for (std::size_t i = std::max(head, five_end_); i < n_; ++i)
-    out[i] = Apply(points_[i], f, i, kOrder, den1_[i], den2_[i]);
-  const double* den = kOrder == 1 ? den1_.data() : den2_.data();
-  for (std::size_t i = five_begin_; i < five_end_; ++i)
-    out[i] = kOrder == 1 ? FivePointFirst(f, i, den[i]) : FivePointSecond(f, i, den[i]);
+  for (std::size_t i = begin; i < std::min(end, head); ++i) edge(i);
+  for (std::size_t i = std::max(begin, std::max(head, five_end_)); i < end; ++i) edge(i);
+  const std::size_t lo = std::max(begin, five_begin_), hi = std::min(end, five_end_);
+  if (lo < hi) five(lo, hi);
 }
 
-void DerivativeStencil::First(const double* f, double* out) const { Run<1>(f, out); }
-void DerivativeStencil::Second(const double* f, double* out) const { Run<2>(f, out); }
-
-void DerivativeStencil::FirstAndSecond(const double* f, double* first, double* second) const {
+template <int kOrder>
+void DerivativeStencil::Run(const double* f, double* out, std::size_t begin, std::size_t end) const {
   if (n_ < 3) {
-    for (std::size_t i = 0; i < n_; ++i) first[i] = second[i] = std::nan("");
+    for (std::size_t i = begin; i < end; ++i) out[i] = std::nan("");
     return;
   }
-  const std::size_t head = five_end_ > five_begin_ ? five_begin_ : n_;
-  auto edge = [&](std::size_t i) {
-    first[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
-    second[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
-  };
-  for (std::size_t i = 0; i < head; ++i) edge(i);
-  for (std::size_t i = std::max(head, five_end_); i < n_; ++i) edge(i);
-  const double* const den1 = den1_.data();
-  const double* const den2 = den2_.data();
-  for (std::size_t i = five_begin_; i < five_end_; ++i) {
-    first[i] = FivePointFirst(f, i, den1[i]);
-    second[i] = FivePointSecond(f, i, den2[i]);
+  ForEachSample(
+      begin, end, [&](std::size_t i) { out[i] = Apply(points_[i], f, i, kOrder, den1_[i], den2_[i]); },
+      [&](std::size_t lo, std::size_t hi) {
+        const double* den = kOrder == 1 ? den1_.data() : den2_.data();
+        for (std::size_t i = lo; i < hi; ++i)
+          out[i] = kOrder == 1 ? FivePointFirst(f, i, den[i]) : FivePointSecond(f, i, den[i]);
+      });
+}
+
+void DerivativeStencil::First(const double* f, double* out) const { Run<1>(f, out, 0, n_); }
+void DerivativeStencil::Second(const double* f, double* out) const { Run<2>(f, out, 0, n_); }
+void DerivativeStencil::First(const double* f, double* out, std::size_t begin, std::size_t end) const {
+  Run<1>(f, out, begin, end);
+}
+
+void DerivativeStencil::FirstAndSecond(const double* f, double* first, double* second) const {
+  FirstAndSecond(f, first, second, 0, n_);
+}
+
+void DerivativeStencil::FirstAndSecond(const double* f, double* first, double* second, std::size_t begin,
+                                       std::size_t end) const {
+  if (n_ < 3) {
+    for (std::size_t i = begin; i < end; ++i) first[i] = second[i] = std::nan("");
+    return;
   }
+  ForEachSample(
+      begin, end,
+      [&](std::size_t i) {
+        first[i] = Apply(points_[i], f, i, 1, den1_[i], den2_[i]);
+        second[i] = Apply(points_[i], f, i, 2, den1_[i], den2_[i]);
+      },
+      [&](std::size_t lo, std::size_t hi) {
+        const double* const den1 = den1_.data();
+        const double* const den2 = den2_.data();
+        for (std::size_t i = lo; i < hi; ++i) {
+          first[i] = FivePointFirst(f, i, den1[i]);
+          second[i] = FivePointSecond(f, i, den2[i]);
+        }
+      });
 }
 
 }  // namespace zeeline

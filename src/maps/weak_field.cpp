@@ -84,10 +84,11 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
   double* const d2 = work.d2.data();
   const double* const I = s.I;
   const double* const l = s.wavelength_nm;
-  // Both derivatives in one pass when the transverse field is wanted (below), else the first alone.
+  // Both derivatives in one pass when the transverse field is wanted (below), else the first alone; on the
+  // window only (the span's two extra samples either side feed the stencils, their derivatives are not used).
   const bool transverse = s.Q && s.U && std::fabs(o.G) > 1e-9;
-  if (transverse) grid.stencil.FirstAndSecond(I + a, d1 + a, d2 + a);
-  else grid.stencil.First(I + a, d1 + a);
+  if (transverse) grid.stencil.FirstAndSecond(I + a, d1 + a, d2 + a, win.begin - a, win.end - a);
+  else grid.stencil.First(I + a, d1 + a, win.begin - a, win.end - a);
   const double C = grid.lorentz_nm_per_gauss;  // nm per gauss
   const double h = grid.step_nm;
 

@@ -123,6 +123,30 @@ TEST(DataSanity, PolarisationAboveIntensityBeyondNoiseIsFlagged) {
   EXPECT_EQ(CheckPixelSanity(t.View(), Continuum(t), lim), kQualityPolExceedsI);
 }
 
+TEST(DataSanity, CheckOnRunsHandsOnTheContinuumEstimateOfAUsablePixel) {
+  // The level the check sums (every sample finite) and the noise it measures are EstimateContinuum's, bit for
+  // bit, with the measured noise and with a given one; an I + V pixel (no Q, U) too.
+  for (double noise_rel : {0.0, 2e-3}) {
+    const DataSanityLimits lim = MakeSanityLimits(-32, 1.0, noise_rel);
+    for (unsigned seed = 1; seed <= 20; ++seed) {
+      const auto s = Line(600.0, 1e-3, seed);
+      PixelSpectrum view = s.View();
+      if (seed % 2) view.Q = view.U = nullptr;
+      const ContinuumRuns runs = MakeContinuumRuns(Continuum(s));
+      ContinuumEstimate c;
+      ASSERT_EQ(CheckPixelSanity(view, runs, lim, c), 0u) << seed;
+      const ContinuumEstimate e = EstimateContinuum(view, Continuum(s), noise_rel);
+      EXPECT_EQ(c.continuum, e.continuum) << seed;
+      EXPECT_EQ(c.noise_I, e.noise_I) << seed;
+      EXPECT_EQ(c.noise_Q, e.noise_Q) << seed;
+      EXPECT_EQ(c.noise_U, e.noise_U) << seed;
+      EXPECT_EQ(c.noise_V, e.noise_V) << seed;
+      EXPECT_EQ(c.samples, e.samples) << seed;
+      EXPECT_EQ(c.noise_dof, e.noise_dof) << seed;
+    }
+  }
+}
+
 TEST(DataSanity, NoUsablePixelIsAFitsErrorNamingTheFileAndCounts) {
   const std::vector<std::int32_t> q = {static_cast<std::int32_t>(kQualityNonPositiveI),
                                        static_cast<std::int32_t>(kQualityNonFiniteInput)};

@@ -68,5 +68,29 @@ TEST(SpectralDerivative, FirstAndSecondInOnePassEqualsEachAlone) {
   }
 }
 
+TEST(SpectralDerivative, ARangeOfSamplesIsThoseOfTheWholeGridAndNothingElse) {
+  std::vector<double> x = {0.0};
+  for (int i = 1; i < 30; ++i) x.push_back(x.back() + 1e-3 * (1.0 + 0.3 * std::sin(1.7 * i)));  // all kinds of point
+  std::vector<double> u = UniformGrid(30, 630.2, 1.5e-3);  // the five-point run
+  for (const std::vector<double>* grid : {&x, &u}) {
+    std::vector<double> f, d1(30), d2(30);
+    for (double xi : *grid) f.push_back(std::exp(-(xi - (*grid)[12]) * (xi - (*grid)[12]) / 1e-4));
+    const DerivativeStencil st(grid->data(), grid->size());
+    st.FirstAndSecond(f.data(), d1.data(), d2.data());
+    for (std::size_t begin : {0, 1, 2, 5}) {
+      const std::size_t end = 30 - begin / 2;
+      std::vector<double> r1(30, -7.0), r2(30, -7.0), o1(30, -7.0);
+      st.FirstAndSecond(f.data(), r1.data(), r2.data(), begin, end);
+      st.First(f.data(), o1.data(), begin, end);
+      for (std::size_t i = 0; i < 30; ++i) {
+        const bool in = i >= begin && i < end;
+        EXPECT_EQ(r1[i], in ? d1[i] : -7.0) << begin << " " << i;
+        EXPECT_EQ(r2[i], in ? d2[i] : -7.0) << begin << " " << i;
+        EXPECT_EQ(o1[i], in ? d1[i] : -7.0) << begin << " " << i;
+      }
+    }
+  }
+}
+
 }  // namespace
 }  // namespace zeeline

@@ -19,7 +19,8 @@
 // Only the first two are checked when a sample is non-finite or absurd (the rest would compare garbage).
 // The check depends on the pixel's own samples and on cube-wide constants fixed before the first pixel, never
 // on its neighbours, so a bad pixel does not spread and the maps do not depend on the tiling.
-// Cost: one pass over the pixel's samples plus the continuum estimate (pixel_spectrum.hpp).
+// Cost: one pass over the pixel's samples plus the continuum estimate (pixel_spectrum.hpp), which the runs
+// overload hands on to the estimators.
 #pragma once
 
 #include <cmath>
@@ -63,6 +64,11 @@ std::uint32_t CheckSampleRange(const PixelSpectrum& s, const DataSanityLimits& l
 /// The whole check (file comment): QUALITY bits of the failed tests, 0 for a usable pixel.
 std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const std::vector<std::size_t>& continuum_samples,
                                const DataSanityLimits& limits);
+/// The same check on the continuum samples' runs (pixel_spectrum.hpp, worked out once per grid), handing on
+/// what it measured: when it returns 0, `continuum` is EstimateContinuum(s, continuum_runs, limits.noise_rel)
+/// bit for bit, so the estimators of a usable pixel need not measure the level and the noise again.
+std::uint32_t CheckPixelSanity(const PixelSpectrum& s, const ContinuumRuns& continuum_runs,
+                               const DataSanityLimits& limits, ContinuumEstimate& continuum);
 
 /// QUALITY bits set by CheckPixelSanity.
 constexpr std::uint32_t kQualityInputRejected =

@@ -65,4 +65,25 @@ double NoiseDegreesOfFreedom(const std::vector<std::size_t>& continuum_samples);
 ContinuumEstimate EstimateContinuum(const PixelSpectrum& s, const std::vector<std::size_t>& continuum_samples,
                                     double given_noise_rel = 0.0);
 
+/// A list of continuum samples as the runs of consecutive indices it is made of, in list order: the list
+/// is the concatenation of begin, begin + 1, ..., end - 1 over the runs (e.g. {3, 4, 5, 9, 10} is [3, 6),
+/// [9, 11)). Worked out once per grid (MakeContinuumRuns), it lets the per-pixel estimate walk each run as a
+/// plain loop: the noise's second differences are exactly the triples inside one run, so no index list is
+/// read and no contiguity is tested per sample.
+struct ContinuumRuns {
+  std::vector<SampleRange> runs;
+  std::size_t samples = 0;  ///< length of the list
+  double noise_dof = 0.0;   ///< NoiseDegreesOfFreedom of the list (a property of the list alone)
+};
+ContinuumRuns MakeContinuumRuns(const std::vector<std::size_t>& continuum_samples);
+
+/// The same estimate from the runs of the list (bit for bit: every sum adds the same terms in the same order).
+ContinuumEstimate EstimateContinuum(const PixelSpectrum& s, const ContinuumRuns& runs, double given_noise_rel = 0.0);
+
+/// The same estimate for a caller that has already summed the level: `level` must be the mean of I over the
+/// runs with every sample finite (as the data-sanity check finds it), which is what EstimateContinuum would
+/// compute; only the noise is measured here.
+ContinuumEstimate EstimateContinuumAtLevel(const PixelSpectrum& s, const ContinuumRuns& runs, double level,
+                                           double given_noise_rel = 0.0);
+
 }  // namespace zeeline

@@ -50,10 +50,18 @@ class DerivativeStencil {
   void Second(const double* f, double* out) const;
   /// Both in one pass over f (the same values as First and Second).
   void FirstAndSecond(const double* f, double* first, double* second) const;
+  /// The same for the samples [begin, end) alone (end <= size()): out[i] for i outside is not written. A caller
+  /// that needs a window of the grid, the stencil prepared on the window and two samples either side, skips
+  /// the ends it does not use.
+  void First(const double* f, double* out, std::size_t begin, std::size_t end) const;
+  void FirstAndSecond(const double* f, double* first, double* second, std::size_t begin, std::size_t end) const;
 
  private:
   template <int kOrder>
-  void Run(const double* f, double* out) const;  // First (kOrder 1) and Second (2)
+  void Run(const double* f, double* out, std::size_t begin, std::size_t end) const;  // First (1), Second (2)
+  // edge(i) for each sample of [begin, end) outside the five-point run, five(lo, hi) for those inside it.
+  template <class Edge, class Five>
+  void ForEachSample(std::size_t begin, std::size_t end, Edge edge, Five five) const;
   std::size_t n_ = 0;
   std::size_t five_begin_ = 0, five_end_ = 0;  ///< [begin, end): every sample five-point (the fast loop)
   std::vector<double> den1_, den2_;            ///< five-point denominators 12 h and 12 h^2 per sample
