@@ -1,5 +1,6 @@
 #include "zeeline/maps/centre_of_gravity.hpp"
 
+#include <algorithm>
 #include <cmath>
 
 #include "zeeline/core/constants.hpp"
@@ -12,24 +13,56 @@ std::string CentreOfGravityOptions::Validate() const {
   return ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
 }
 
-namespace {
-// Trapezoid weight of sample i of l[0..n), n >= 2.
-double TrapezoidWeight(const double* l, std::size_t n, std::size_t i) {
-  const double left = i > 0 ? l[i] - l[i - 1] : l[1] - l[0];
-  const double right = i + 1 < n ? l[i + 1] - l[i] : l[n - 1] - l[n - 2];
-  return 0.5 * (left + right);
-}
-}  // namespace
-
 void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t samples, const CentreOfGravityOptions& o) {
   wavelength_nm = l;
   n = samples;
-  weight.assign(n, 0.0);
-  window = SampleRange{};
+  cell_lo.assign(n, 0.0);
+  cell_hi.assign(n, 0.0);
+  cell_width.assign(n, 0.0);
   if (n < 3) return;
-  window = WindowRange(l, n, o.rest_wavelength_nm, o.window_halfwidth_nm);
-  for (std::size_t i = 0; i < n; ++i) weight[i] = TrapezoidWeight(l, n, i);
+  // Sample i stands for [midpoint to its left neighbour, midpoint to its right one]; the end samples for a
+  // cell as wide as their one step, centred on them. The cell widths are the trapezoid weights.
+  for (std::size_t i = 0; i < n; ++i) {
+    cell_lo[i] = i > 0 ? 0.5 * (l[i - 1] + l[i]) : l[0] - 0.5 * (l[1] - l[0]);
+    cell_hi[i] = i + 1 < n ? 0.5 * (l[i] + l[i + 1]) : l[n - 1] + 0.5 * (l[n - 1] - l[n - 2]);
+    cell_width[i] = cell_hi[i] - cell_lo[i];
+  }
+  first = CentreOfGravityWindow::Around(*this, o.rest_wavelength_nm, o.window_halfwidth_nm);
 }
+
+CentreOfGravityWindow CentreOfGravityWindow::Around(const CentreOfGravityWorkspace& work, double centre_nm,
+                                                    double halfwidth_nm) {
+  CentreOfGravityWindow w;
+  if (work.n < 3) return w;
+  if (halfwidth_nm > 0.0) {
+    w.lo_nm = centre_nm - halfwidth_nm;
+    w.hi_nm = centre_nm + halfwidth_nm;
+  }
+  const double* const lo = work.cell_lo.data();
+  const double* const hi = work.cell_hi.data();
+  w.begin = static_cast<std::size_t>(std::upper_bound(hi, hi + work.n, w.lo_nm) - hi);
+  w.end = static_cast<std::size_t>(std::lower_bound(lo, lo + work.n, w.hi_nm) - lo);
+  if (w.end <= w.begin) {
+    w.end = w.begin;
+    return w;
+  }
+  auto inside = [&](std::size_t i) { return std::min(hi[i], w.hi_nm) - std::max(lo[i], w.lo_nm); };
+  w.first_weight = inside(w.begin);
+  w.last_weight = inside(w.end - 1);
+  return w;
+}
+
+namespace {
+// fn(i, weight) for each sample of the window in order: the end samples with their cut weights, the others
+// with their whole cells.
+template <class Fn>
+void ForEachWeighted(const CentreOfGravityWindow& w, const double* cell_width, Fn&& fn) {
+  if (w.end <= w.begin) return;
+  fn(w.begin, w.first_weight);
+  for (std::size_t i = w.begin + 1; i + 1 < w.end; ++i) fn(i, cell_width[i]);
+  if (w.end - 1 > w.begin) fn(w.end - 1, w.last_weight);
+}
+}  // namespace
 
 CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                               const CentreOfGravityOptions& o) {
@@ -44,23 +77,65 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
   if (s.wavelength_nm != work.wavelength_nm || s.n != work.n)
     throw OptionError("CentreOfGravityEstimatePrepared: the pixel's wavelength grid is not the prepared one");
   if (s.n < 3 || !s.V) return r;
-  const SampleRange win = work.window;
   const double* l = s.wavelength_nm;
   const double* I = s.I;
   const double* V = s.V;
-  const double* weight = work.weight.data();
-  double np = 0.0, dp = 0.0, nm = 0.0, dm = 0.0;
-  for (std::size_t i = win.begin; i < win.end; ++i) {
-    const double w = weight[i];
-    const double ap = (noise.continuum - I[i] - V[i]) * w;
-    const double am = (noise.continuum - I[i] + V[i]) * w;
-    np += l[i] * ap;
-    dp += ap;
-    nm += l[i] * am;
-    dm += am;
-  }
+  const double* const lo = work.cell_lo.data();
+  const double* const hi = work.cell_hi.data();
+  const double* const width = work.cell_width.data();
+  // The centroid sums over a window; usable when both sums have the same, non-negligible sign.
+  struct Sums {
+    double np = 0.0, dp = 0.0, nm = 0.0, dm = 0.0;
+  };
   const double scale = std::fabs(noise.continuum) > 0.0 ? std::fabs(noise.continuum) : 1.0;
-  if (!(std::fabs(dp) > 1e-12 * scale) || !(std::fabs(dm) > 1e-12 * scale) || dp * dm <= 0.0) return r;
+  auto add = [&](Sums& t, std::size_t i, double wi) {
+    const double ap = (noise.continuum - I[i] - V[i]) * wi;
+    const double am = (noise.continuum - I[i] + V[i]) * wi;
+    t.np += l[i] * ap;
+    t.dp += ap;
+    t.nm += l[i] * am;
+    t.dm += am;
+  };
+  auto sums_over = [&](const CentreOfGravityWindow& w) {
+    Sums t;
+    ForEachWeighted(w, width, [&](std::size_t i, double wi) { add(t, i, wi); });
+    return t;
+  };
+  // From the sums over `from` to those over `to`: only the samples about the two windows' edges change weight.
+  auto inside = [&](const CentreOfGravityWindow& w, std::size_t i) {
+    return std::max(std::min(hi[i], w.hi_nm) - std::max(lo[i], w.lo_nm), 0.0);
+  };
+  auto move_sums = [&](Sums& t, const CentreOfGravityWindow& from, const CentreOfGravityWindow& to) {
+    auto change = [&](std::size_t a, std::size_t b) {  // samples a..b-1
+      for (std::size_t i = a; i < b; ++i) add(t, i, inside(to, i) - inside(from, i));
+    };
+    const std::size_t low_end = std::max(from.begin, to.begin) + 1;
+    const std::size_t high_begin = std::max(std::min(from.end, to.end) - 1, low_end);
+    change(std::min(from.begin, to.begin), std::min(low_end, high_begin));
+    change(high_begin, std::max(from.end, to.end));
+  };
+  auto usable = [&](const Sums& t) {
+    return std::fabs(t.dp) > 1e-12 * scale && std::fabs(t.dm) > 1e-12 * scale && t.dp * t.dm > 0.0;
+  };
+  CentreOfGravityWindow win = work.first;
+  Sums t = sums_over(win);
+  // A window fixed on the rest wavelength cuts a shifted line unevenly and pulls both centroids toward its
+  // centre (V_LOS 1.7 % low with the default window of a 128-sample, 0.08 nm grid, 6 % with a 0.01 nm
+  // half-width: pulls of 5 and 29). The window follows the line, centred on the mean of the centroids; each
+  // move leaves that small fraction of the previous offset, so two moves suffice. A move changes the
+  // weights of the few samples about the edges only, so the sums are updated, not summed again.
+  // Near an end of the spectrum the window shrinks to stay symmetric about the line.
+  for (int move = 0; move < 2 && o.window_halfwidth_nm > 0.0 && usable(t); ++move) {
+    const double centre = 0.5 * (t.np / t.dp + t.nm / t.dm);
+    const double half = std::min({o.window_halfwidth_nm, centre - lo[0], hi[s.n - 1] - centre});
+    if (!(half > 0.0)) break;
+    const CentreOfGravityWindow moved = CentreOfGravityWindow::Around(work, centre, half);
+    if (moved.end - moved.begin < 3) break;
+    move_sums(t, win, moved);
+    win = moved;
+  }
+  const double np = t.np, dp = t.dp, nm = t.nm, dm = t.dm;
+  if (!usable(t)) return r;
   r.centroid_plus_nm = np / dp;
   r.centroid_minus_nm = nm / dm;
   const double C = LorentzUnit_nm(o.rest_wavelength_nm, 1.0);
@@ -75,15 +150,14 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
   const double cp = r.centroid_plus_nm, cm = r.centroid_minus_nm;
   const double nI = noise.noise_I, nV = noise.noise_V;
   double var_diff = 0.0, var_mean = 0.0;
-  for (std::size_t i = win.begin; i < win.end; ++i) {
-    const double w = weight[i];
+  ForEachWeighted(win, width, [&](std::size_t i, double w) {
     const double gp = -(l[i] - cp) * w / dp;
     const double gm = -(l[i] - cm) * w / dm;
     const double dI_diff = gp - gm, dV_diff = gp + gm;
     const double dI_mean = 0.5 * (gp + gm), dV_mean = 0.5 * (gp - gm);
     var_diff += dI_diff * dI_diff * nI * nI + dV_diff * dV_diff * nV * nV;
     var_mean += dI_mean * dI_mean * nI * nI + dV_mean * dV_mean * nV * nV;
-  }
+  });
   r.blos_err_gauss = std::sqrt(var_diff) / (2.0 * C * std::fabs(o.g_eff));
   r.vlos_err_kms = c_kms * std::sqrt(var_mean) / o.rest_wavelength_nm;
   r.ok = std::isfinite(r.blos_gauss) && std::isfinite(r.vlos_kms);

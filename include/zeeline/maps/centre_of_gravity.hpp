@@ -8,10 +8,17 @@
 // with C the Lorentz unit per gauss at l_0 (core/units.hpp). Signs follow docs/conventions.md: for a field
 // toward the observer V > 0 in the blue wing of an absorption line, so I + V is absorbed on the red side
 // and l_+ > l_-; the same formula holds for emission lines (numerator and denominator change sign together).
+// Window: centre +- window_halfwidth_nm, each sample weighted by the part of its cell (its trapezoid weight)
+// inside, so the window's edges are exact, not whole samples. It starts on the rest wavelength and then
+// follows the line: re-centred twice on (l_+ + l_-)/2, narrowed where it would reach past an end of the
+// spectrum so that it stays symmetric about the line. A window that stays on the rest wavelength cuts a shifted
+// line unevenly, and the centroids are pulled toward its centre. The effect is measured in
+// tests/maps/centre_of_gravity_test.cpp.
 // Uncertainties: first-order propagation of independent noise sigma_I, sigma_V through both centroids
 // (the I noise is common to l_+ and l_- and enters with its correlation).
 #pragma once
 
+#include <cmath>
 #include <string>
 #include <vector>
 
@@ -22,7 +29,7 @@ namespace zeeline {
 struct CentreOfGravityOptions {
   double rest_wavelength_nm = 0.0;   ///< required; same frame as the data
   double g_eff = 0.0;                ///< required, non-zero
-  double window_halfwidth_nm = 0.0;  ///< integration window around the rest wavelength; 0 = whole spectrum
+  double window_halfwidth_nm = 0.0;  ///< half-width of the integration window (module comment); 0 = whole spectrum
 
   std::string Validate() const;
 };
@@ -37,16 +44,28 @@ struct CentreOfGravityResult {
 CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                               const CentreOfGravityOptions& options);
 
-/// What the estimate takes from the wavelength grid alone (the window and the trapezoid weights), worked out
-/// once for many pixels on one grid; one per thread.
-/// CentreOfGravityEstimatePrepared(s, noise, options, work) is bit for bit CentreOfGravityEstimate(s, noise,
-/// options) for a pixel on the grid of the last Prepare (same options); the latter prepares a workspace per call.
-/// A pixel on another grid (other wavelength pointer or length) throws OptionError.
+struct CentreOfGravityWorkspace;
+
+/// An integration window [lo_nm, hi_nm] and the samples whose cells (workspace) it overlaps, [begin, end).
+struct CentreOfGravityWindow {
+  double lo_nm = -HUGE_VAL, hi_nm = HUGE_VAL;  ///< unbounded: the whole spectrum
+  std::size_t begin = 0, end = 0;
+  double first_weight = 0.0, last_weight = 0.0;  ///< the parts of the end samples' cells inside
+  /// centre_nm +- halfwidth_nm (the whole spectrum when halfwidth_nm <= 0).
+  static CentreOfGravityWindow Around(const CentreOfGravityWorkspace& work, double centre_nm, double halfwidth_nm);
+};
+
+/// What the estimate takes from the wavelength grid alone (each sample's cell, whose width is its trapezoid
+/// weight, and the first window, on the rest wavelength), worked out once for many pixels on one grid; one per
+/// thread. CentreOfGravityEstimatePrepared(s, noise, options, work) is bit for bit CentreOfGravityEstimate(s,
+/// noise, options) for a pixel on the grid of the last Prepare (same options); the latter prepares a workspace
+/// per call. A pixel on another grid (other wavelength pointer or length) throws OptionError.
 struct CentreOfGravityWorkspace {
   const double* wavelength_nm = nullptr;     ///< the prepared grid (checked against each pixel's)
   std::size_t n = 0;
-  SampleRange window;
-  std::vector<double> weight;                ///< trapezoid weight w_i per sample
+  std::vector<double> cell_lo, cell_hi;      ///< sample i stands for [cell_lo[i], cell_hi[i]]
+  std::vector<double> cell_width;            ///< cell_hi - cell_lo: the trapezoid weight
+  CentreOfGravityWindow first;               ///< on the rest wavelength
   void Prepare(const double* wavelength_nm, std::size_t n, const CentreOfGravityOptions& options);
 };
 CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
