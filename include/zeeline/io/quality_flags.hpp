@@ -22,7 +22,7 @@ enum QualityBit : std::uint32_t {
   kQualitySaturatedLine = 1u << 7,   ///< saturated line and a transverse form that saturation biases
   kQualityModelMismatch = 1u << 8,   ///< the method's model does not describe the observed profile shapes
   kQualityInconsistent = 1u << 9,    ///< the method's outputs contradict each other or another estimate
-  kQualityLowTransverse = 1u << 10,  ///< linear polarisation too weak: B_T, inclination, azimuth noise-dominated
+  kQualityLowTransverse = 1u << 10,  ///< linear polarisation too weak: B_T, |B|, inclination, azimuth noise-dominated
   kQualityAbsurdInput = 1u << 11,    ///< a sample beyond the type's plausible range or 1e8 x the cube's level
   kQualityNonPositiveI = 1u << 12,   ///< continuum Stokes I <= 0 (maps/data_sanity.hpp)
   kQualityPolExceedsI = 1u << 13,    ///< |Q|, |U| or |V| > I beyond the noise (maps/data_sanity.hpp)
