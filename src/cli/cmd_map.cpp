@@ -213,7 +213,7 @@ void RunMap(const MapArgs& a) {
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
      << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
      << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me << "|"
-     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.transverse_model_error << "|"
+     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.transverse_model_error << "|" << o.cog_model_error << "|"
      << o.consistency_sigma << "|" << a.tile_mib;
   for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;
@@ -237,7 +237,9 @@ void RunMap(const MapArgs& a) {
     std::fprintf(stderr,
                  "zeeline: note: %s has no Stokes Q/U: no B_AZIM; B_LOS and V_LOS everywhere; B_TOTAL, B_INCL "
                  "and B_TRANS only where the sigma groups are resolved (split |B| with the centre-of-gravity "
-                 "B_LOS)\n",
+                 "B_LOS). Without Q/U the weak-field regime is judged from B_LOS alone: a strong transverse field "
+                 "it cannot see makes the weak-field B_LOS read low (measured: 4-5 %% at 0.3-1.5 kG, more for "
+                 "stronger, nearly transverse fields), which B_LOS_SIGMA does not include (docs/methods.md)\n",
                  a.cube.c_str());
 
   FitsWriteOptions w;
@@ -347,6 +349,10 @@ void AddMapComputeOptions(CLI::App* cmd, MapArgs& a) {
                   "model accuracy of the saturation-corrected weak-field B_T as a fraction of B_T, added in quadrature "
                   "to B_TRANS_SIGMA (docs/methods.md); 0 = noise only")
       ->capture_default_str();
+  cmd->add_option("--cog-model-error", a.cog_model_error,
+                  "model accuracy of the centre-of-gravity B_LOS as a fraction of |B_LOS|, added in quadrature to "
+                  "B_LOS_SIGMA where it is used (cog and split pixels; docs/methods.md); 0 = noise only")
+      ->capture_default_str();
   cmd->add_option("--shape-test-sigma", a.shape_test_sigma,
                   "weak-field model rejected (MODEL_MISMATCH / not weak) where its chi2 exceeds 1 by this many sigma")
       ->capture_default_str();
@@ -414,6 +420,7 @@ MapSetup MapOptionsFromArgs(const MapArgs& a, const SelectedLine& line, const Cu
   o.detection_sigma = a.detection_sigma;
   o.transverse_detection = a.transverse_detection;
   o.transverse_model_error = a.transverse_model_error;
+  o.cog_model_error = a.cog_model_error;
   o.consistency_sigma = a.shape_test_sigma;
   o.need_transverse = a.require_transverse;
   o.threads = a.threads > 0 ? a.threads : DefaultThreads();  // under MPI: the node's cores shared by its ranks
@@ -435,6 +442,8 @@ std::vector<ImageHdu> MapHduLayout(long nx, long ny, const FieldMapOptions& o) {
       h.keywords.push_back({"DETSIG", o.detection_sigma, "B_TRANS detection threshold in sigma"});
     } else if (h.extname == MapSlotName(kSlotBtransErr)) {
       h.keywords.push_back({"BTMODERR", o.transverse_model_error, "weak-field B_T model error, fraction of B_T"});
+    } else if (h.extname == MapSlotName(kSlotBlosErr)) {
+      h.keywords.push_back({"COGMODER", o.cog_model_error, "centre-of-gravity B_LOS model error, fraction"});
     }
   ImageHdu method = MakeMap(map_names::kMethod, nx, ny, {});
   method.type = FitsPixelType::kInt16;

@@ -22,7 +22,8 @@ struct MapArgs {
   double noise = 0.0, weak_ratio = FieldMapOptions{}.weak_ratio, resolution_ratio = FieldMapOptions{}.resolution_ratio,
          detection_sigma = FieldMapOptions{}.detection_sigma, transverse_detection = FieldMapOptions{}.transverse_detection,
          shape_test_sigma = FieldMapOptions{}.consistency_sigma,
-         transverse_model_error = FieldMapOptions{}.transverse_model_error;
+         transverse_model_error = FieldMapOptions{}.transverse_model_error,
+         cog_model_error = FieldMapOptions{}.cog_model_error;
   int threads = 0, v_sign = 1;
   double tile_mib = CubeReadOptions{}.max_tile_mib;
   long rows_per_task = 0;  // under mpirun only (cli/parallel.hpp)

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <string>
 
 #include "zeeline/core/constants.hpp"
 #include "zeeline/core/errors.hpp"
@@ -10,7 +11,11 @@
 namespace zeeline {
 
 std::string CentreOfGravityOptions::Validate() const {
-  return ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
+  const std::string line = ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
+  if (!line.empty()) return line;
+  if (!(model_error >= 0.0 && model_error <= 0.3))
+    return "centre-of-gravity model error = " + std::to_string(model_error) + " must be in [0, 0.3]";
+  return "";
 }
 
 void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t samples, const CentreOfGravityOptions& o) {
@@ -158,7 +163,8 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
     var_diff += dI_diff * dI_diff * nI * nI + dV_diff * dV_diff * nV * nV;
     var_mean += dI_mean * dI_mean * nI * nI + dV_mean * dV_mean * nV * nV;
   });
-  r.blos_err_gauss = std::sqrt(var_diff) / (2.0 * C * std::fabs(o.g_eff));
+  r.blos_noise_err_gauss = std::sqrt(var_diff) / (2.0 * C * std::fabs(o.g_eff));
+  r.blos_err_gauss = std::hypot(r.blos_noise_err_gauss, o.model_error * r.blos_gauss);
   r.vlos_err_kms = c_kms * std::sqrt(var_mean) / o.rest_wavelength_nm;
   r.ok = std::isfinite(r.blos_gauss) && std::isfinite(r.vlos_kms);
   return r;

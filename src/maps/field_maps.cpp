@@ -127,6 +127,7 @@ class PixelProcessor {
     cog_.rest_wavelength_nm = o.rest_wavelength_nm;
     cog_.g_eff = o.pattern.g_eff;
     cog_.window_halfwidth_nm = lay.window_halfwidth_nm;
+    cog_.model_error = o.cog_model_error;
     split_.rest_wavelength_nm = o.rest_wavelength_nm;
     split_.g_eff = o.pattern.g_eff;
     split_.window_halfwidth_nm = lay.window_halfwidth_nm;
@@ -294,8 +295,11 @@ class PixelProcessor {
         std::isfinite(out.v[kSlotBtrans]) && w.btrans_snr < o_.transverse_detection)
       out.quality |= kQualityLowTransverse;
     const double k = o_.detection_sigma;
-    const bool blos_seen = std::isfinite(out.v[kSlotBlos]) && std::fabs(out.v[kSlotBlos]) > k * out.v[kSlotBlosErr];
-    // Detection against the noise alone: the weak-field B_T's sigma may carry a model term (weak_field.hpp).
+    // Detection against the noise alone: the centre-of-gravity B_LOS's sigma carries a model term
+    // (centre_of_gravity.hpp), and so may the weak-field B_T's (weak_field.hpp).
+    const bool blos_from_cog = (m == MapMethod::kCentreOfGravity || m == MapMethod::kSplitting) && g.ok;
+    const double blos_noise_err = blos_from_cog ? g.blos_noise_err_gauss : out.v[kSlotBlosErr];
+    const bool blos_seen = std::isfinite(out.v[kSlotBlos]) && std::fabs(out.v[kSlotBlos]) > k * blos_noise_err;
     const double bt_noise_err = (m == MapMethod::kWeakField || m == MapMethod::kCentreOfGravity) && w.has_btrans
                                     ? w.btrans_noise_err_gauss
                                     : out.v[kSlotBtransErr];
@@ -555,6 +559,8 @@ std::string FieldMapOptions::Validate() const {
   else if (!(wing_start_nm >= 0.0)) m << "wing start = " << wing_start_nm << " nm must be >= 0 (0 = 4.8 Doppler widths)";
   else if (!(consistency_sigma > 0.0)) m << "consistency sigma = " << consistency_sigma << " must be > 0";
   else if (!(transverse_detection >= 0.0)) m << "transverse detection = " << transverse_detection << " must be >= 0";
+  else if (!(cog_model_error >= 0.0 && cog_model_error <= 0.3))
+    m << "centre-of-gravity model error = " << cog_model_error << " must be in [0, 0.3]";
   else if (!(transverse_model_error >= 0.0 && transverse_model_error <= 0.2))
     m << "transverse model error = " << transverse_model_error
       << " must be in [0, 0.2] (more would let the model term decide sigma-based thresholds)";

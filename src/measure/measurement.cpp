@@ -223,7 +223,7 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
   auto field_scale = [&] {
     double b = 0.0;
     if (w.has_blos || w.has_btrans) b = std::hypot(w.has_blos ? w.blos_gauss : 0.0, w.has_btrans ? w.btrans_gauss : 0.0);
-    if (g.ok && std::fabs(g.blos_gauss) > 3.0 * g.blos_err_gauss) b = std::max(b, std::fabs(g.blos_gauss));
+    if (g.ok && std::fabs(g.blos_gauss) > 3.0 * g.blos_noise_err_gauss) b = std::max(b, std::fabs(g.blos_gauss));
     if (cf.ok && cf.has_field && cf.resolved) b = std::max(b, cf.field_gauss);
     return b;
   };

@@ -128,6 +128,7 @@ def map(
     detection_sigma: float = ...,
     transverse_detection: float = ...,
     transverse_model_error: float = ...,
+    cog_model_error: float = ...,
     shape_test_sigma: float = ...,
     v_sign: int = ...,
     require_transverse: bool = ...,

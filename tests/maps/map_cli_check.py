@@ -11,6 +11,7 @@ and fitsverify (Debian fitsverify).
   (exit 1, message names the file and Q and U), a bad method name exits 2.
 * A cube with fewer than 16 continuum samples gets the few-continuum warning, unless --noise is given.
 * --transverse-model-error: B_TRANS_SIGMA = hypot(noise sigma, f B_TRANS) (docs/methods.md), B_TRANS unchanged;
+* --cog-model-error: the centre-of-gravity B_LOS_SIGMA = hypot(noise sigma, f |B_LOS|), COGMODER written;
   QUALITY unchanged (detection uses the noise alone); a value outside [0, 0.2] exits 2.
 Usage: /usr/bin/python3 map_cli_check.py /path/to/zeeline
 """
@@ -188,6 +189,26 @@ with tempfile.TemporaryDirectory() as tmp:
     p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--transverse-model-error", "0.3", "-o",
              os.path.join(tmp, "x.fits")], expect_rc=2)
     check("transverse model error" in p.stderr, f"bad --transverse-model-error message: {p.stderr!r}")
+
+    # --cog-model-error (docs/methods.md): the centre-of-gravity B_LOS_SIGMA = hypot(noise sigma, f |B_LOS|),
+    # f = 0.10 by default and written as COGMODER; B_LOS and QUALITY (detection against the noise) unchanged.
+    cog0, cog10 = os.path.join(tmp, "cog0.fits"), os.path.join(tmp, "cog10.fits")
+    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "cog", "--cog-model-error", "0",
+         "-o", cog0, "-q"])
+    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "cog", "-o", cog10, "-q"])
+    with fits.open(cog0) as a, fits.open(cog10) as b:
+        bl = a["B_LOS"].data.astype(float)
+        sel = np.isfinite(bl)
+        check(sel.sum() > 300, f"centre-of-gravity B_LOS pixels on the demo cube: {sel.sum()}")
+        check(np.array_equal(bl, b["B_LOS"].data.astype(float), equal_nan=True), "B_LOS does not depend on the model term")
+        check(np.array_equal(a["QUALITY"].data, b["QUALITY"].data), "QUALITY does not depend on the model term")
+        s0, s10 = a["B_LOS_SIGMA"].data.astype(float)[sel], b["B_LOS_SIGMA"].data.astype(float)[sel]
+        check(np.allclose(s10, np.hypot(s0, 0.10 * np.abs(bl[sel])), rtol=1e-5), "B_LOS_SIGMA = hypot(noise, 0.1 |B_LOS|)")
+        check(b["B_LOS_SIGMA"].header.get("COGMODER") == 0.1 and a["B_LOS_SIGMA"].header.get("COGMODER") == 0.0,
+              "COGMODER records the model error")
+    p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--cog-model-error", "0.5", "-o",
+             os.path.join(tmp, "x.fits")], expect_rc=2)
+    check("centre-of-gravity model error" in p.stderr, f"bad --cog-model-error message: {p.stderr!r}")
 
 print(f"{len(failures)} failed" if failures else "all map CLI checks passed")
 sys.exit(1 if failures else 0)

@@ -49,6 +49,7 @@
 #include "zeeline/atomic/paschen_back.hpp"
 #include "zeeline/atomic/zeeman_pattern.hpp"
 #include "zeeline/io/cube_reader.hpp"
+#include "zeeline/maps/centre_of_gravity.hpp"
 #include "zeeline/maps/disambiguation.hpp"
 #include "zeeline/maps/map_method.hpp"
 #include "zeeline/maps/me_inversion.hpp"
@@ -92,6 +93,8 @@ struct FieldMapOptions {
   /// Model accuracy (fraction of B_T) of the saturation-corrected weak-field B_T, in quadrature with its noise
   /// error (weak_field.hpp); 0 = noise only; at most 0.2. LOW_SIGNAL tests B_T against its noise alone.
   double transverse_model_error = WeakFieldOptions{}.corrected_model_error;
+  /// Model error of the centre-of-gravity B_LOS, fraction of |B_LOS|, in its sigma (centre_of_gravity.hpp).
+  double cog_model_error = CentreOfGravityOptions{}.model_error;
   double resolution_ratio = 1.0;     ///< splitting/width above which sigma groups count as resolved
   /// Set: the split estimator's |B| beyond the linear regime (full_splitting.hpp) above mixed_from_gauss.
   std::shared_ptr<const SigmaSplittingTable> mixed_splitting;
