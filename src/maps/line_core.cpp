@@ -1,6 +1,9 @@
 #include "zeeline/maps/line_core.hpp"
 
 #include <cmath>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 
 namespace zeeline {
 
@@ -103,20 +106,42 @@ double SaturationFromSampledCore(double ratio, double kappa4, double kappa6) {
   return RefineForSampling(SaturationFromCoreShape(ratio), ratio, kappa4, kappa6);
 }
 
-LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_nm, double window) {
-  LineCoreShape r;
-  const SampleRange win = WindowRange(s.wavelength_nm, s.n, centre_nm, window);
-  if (win.size() < 7) return r;
-  // Extremum of |Ic - I| in the window, and the sense of the line.
-  std::size_t k = win.begin;
+namespace {
+// max(0, max_i |ic - I_i|) over the window, NaN terms skipped. A maximum is exact whatever the order, so two
+// SSE2 lanes (baseline on x86-64; maxpd(a, b) = a > b ? a : b, which keeps b when a is NaN) side by side.
+double MaxDepth(const double* I, SampleRange win, double ic) {
   double best = 0.0;
-  for (std::size_t i = win.begin; i < win.end; ++i) {
-    const double d = std::fabs(ic - s.I[i]);
-    if (d > best) {
-      best = d;
-      k = i;
-    }
+  std::size_t i = win.begin;
+#if defined(__SSE2__)
+  const __m128d sign = _mm_set1_pd(-0.0), c = _mm_set1_pd(ic);
+  __m128d m = _mm_setzero_pd();
+  for (; i + 2 <= win.end; i += 2) m = _mm_max_pd(_mm_andnot_pd(sign, _mm_sub_pd(c, _mm_loadu_pd(I + i))), m);
+  double lanes[2];
+  _mm_storeu_pd(lanes, m);
+  best = lanes[0] > lanes[1] ? lanes[0] : lanes[1];
+#endif
+  for (; i < win.end; ++i) {
+    const double d = std::fabs(ic - I[i]);
+    best = d > best ? d : best;
   }
+  return best;
+}
+}  // namespace
+
+LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_nm, double window) {
+  return MeasureLineCore(s, ic, centre_nm, window, WindowRange(s.wavelength_nm, s.n, centre_nm, window));
+}
+
+LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_nm, double window,
+                              SampleRange near_window) {
+  LineCoreShape r;
+  const SampleRange win = WindowRangeFrom(s.wavelength_nm, s.n, centre_nm, window, near_window);
+  if (win.size() < 7) return r;
+  // Extremum of |Ic - I| in the window (its first sample), and the sense of the line.
+  const double best = MaxDepth(s.I, win, ic);
+  std::size_t k = win.begin;
+  if (best > 0.0)
+    while (!(std::fabs(ic - s.I[k]) == best)) ++k;  // the first sample at the maximum (there is one)
   if (!(best > 0.0) || k < win.begin + 3 || k + 4 > win.end) return r;
   r.emission = s.I[k] > ic;
   const double sign = r.emission ? -1.0 : 1.0;  // depth(i) = sign * (ic - I)

@@ -27,6 +27,22 @@ SampleRange WindowRange(const double* wavelength_nm, std::size_t n, double centr
   return {static_cast<std::size_t>(lo - wavelength_nm), static_cast<std::size_t>(hi - wavelength_nm)};
 }
 
+SampleRange WindowRangeFrom(const double* wavelength_nm, std::size_t n, double centre_nm, double halfwidth_nm,
+                            SampleRange near) {
+  if (halfwidth_nm <= 0.0) return {0, n};
+  const double* const l = wavelength_nm;
+  const double lo_nm = centre_nm - halfwidth_nm, hi_nm = centre_nm + halfwidth_nm;
+  // lower_bound: the first sample that is not below lo_nm ("below" holds for a leading part of the grid).
+  std::size_t lo = std::min(near.begin, n);
+  while (lo > 0 && !(l[lo - 1] < lo_nm)) --lo;
+  while (lo < n && l[lo] < lo_nm) ++lo;
+  // upper_bound from lo: the first sample above hi_nm.
+  std::size_t hi = std::min(std::max(near.end, lo), n);
+  while (hi < n && !(hi_nm < l[hi])) ++hi;
+  while (hi > lo && hi_nm < l[hi - 1]) --hi;
+  return {lo, hi};
+}
+
 std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_t n, double lo_nm, double hi_nm) {
   std::vector<std::size_t> out;
   for (std::size_t i = 0; i < n; ++i)

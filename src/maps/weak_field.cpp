@@ -113,7 +113,8 @@ WeakFieldResult WeakFieldEstimatePrepared(const PixelSpectrum& s, const Continuu
   r.line_centre_nm = wsum > 0.0 ? lsum / wsum : o.rest_wavelength_nm;
 
   r.noise_dof = noise.noise_dof;
-  r.core = MeasureLineCore(s, noise.continuum, r.line_centre_nm, o.window_halfwidth_nm > 0.0 ? o.window_halfwidth_nm : 0.0);
+  r.core = MeasureLineCore(s, noise.continuum, r.line_centre_nm, o.window_halfwidth_nm > 0.0 ? o.window_halfwidth_nm : 0.0,
+                           win);  // the fit window is that around the rest wavelength, a few samples off
 
   // ---- B_LOS from V
   if (s.V) {

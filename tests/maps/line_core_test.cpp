@@ -1,5 +1,6 @@
 // The line-core shape (line_core.hpp): the inverse of R(u) = ln(2 + u) / (1 + u) against roots found
 // independently, and the saturation and width read back from the model profile the header derives them from.
+#include <algorithm>
 #include <cmath>
 #include <vector>
 
@@ -66,6 +67,34 @@ TEST(LineCore, ModelProfileGivesBackItsOpacityAndWidth) {
     EXPECT_CLOSE(c.doppler_width_nm, w, kModelRelTol) << "eta0 = " << eta0;
     EXPECT_CLOSE(c.surface_source, s0, 0.0, kSourceAbsTol * (s0 + s1)) << "eta0 = " << eta0;
   }
+}
+
+// A window found from a nearby start (MeasureLineCore's near_window) is the window, so the shape is the same
+// bit for bit; a plateau of equal depths takes its first sample as the extremum (a line with a flat bottom).
+TEST(LineCore, NearWindowGivesTheSameShapeAndFlatBottomTakesItsFirstSample) {
+  const double lc = 630.25, w = 0.004, h = 0.001;
+  std::vector<double> wl, I;
+  for (int i = -30; i <= 30; ++i) wl.push_back(lc + h * i);
+  for (double l : wl) I.push_back(0.2 + 0.8 / (1.0 + 5.0 * std::exp(-(l - lc - 0.0013) * (l - lc - 0.0013) / (w * w))));
+  PixelSpectrum s;
+  s.wavelength_nm = wl.data();
+  s.n = wl.size();
+  s.I = I.data();
+  const LineCoreShape a = MeasureLineCore(s, 1.0, lc + 0.0013, 0.02);
+  ASSERT_TRUE(a.ok);
+  for (std::size_t b : {0, 5, 10, 30, 60})
+    for (std::size_t e : {b, b + 3, std::size_t{61}}) {
+      const LineCoreShape c = MeasureLineCore(s, 1.0, lc + 0.0013, 0.02, SampleRange{b, std::min<std::size_t>(e, 61)});
+      EXPECT_EQ(c.saturation, a.saturation) << b << " " << e;
+      EXPECT_EQ(c.doppler_width_nm, a.doppler_width_nm) << b << " " << e;
+      EXPECT_EQ(c.extremum_nm, a.extremum_nm) << b << " " << e;
+    }
+  // Three equal minimum samples: the extremum is the first of them (the strict maximum of |Ic - I| from the blue).
+  std::vector<double> flat = I;
+  const std::size_t k = 31;
+  flat[k - 1] = flat[k + 1] = flat[k] = *std::min_element(I.begin(), I.end());
+  s.I = flat.data();
+  EXPECT_EQ(MeasureLineCore(s, 1.0, lc, 0.02).extremum_nm, wl[k - 1]);
 }
 
 }  // namespace

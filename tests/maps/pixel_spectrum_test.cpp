@@ -224,5 +224,21 @@ TEST(ContinuumEstimate, GivenNoiseReplacesTheMeasuredOne) {
   EXPECT_TRUE(std::isinf(c.noise_dof));
 }
 
+TEST(WindowRange, FromAnyNearStartIsTheBinarySearchesAnswer) {
+  std::vector<double> wl;
+  for (int i = 0; i < 40; ++i) wl.push_back(630.0 + 1e-3 * i);
+  const std::size_t n = wl.size();
+  for (double centre : {629.98, 630.0, 630.0104, 630.02, 630.0395, 630.06, std::nan("")})
+    for (double half : {0.0, 0.0005, 0.001, 0.0052, 0.5}) {
+      const SampleRange want = WindowRange(wl.data(), n, centre, half);
+      for (std::size_t b = 0; b <= n; b += 3)
+        for (std::size_t e : {std::size_t{0}, b, std::min(b + 7, n), n}) {
+          const SampleRange got = WindowRangeFrom(wl.data(), n, centre, half, SampleRange{b, e});
+          EXPECT_EQ(got.begin, want.begin) << centre << " " << half << " " << b << " " << e;
+          EXPECT_EQ(got.end, want.end) << centre << " " << half << " " << b << " " << e;
+        }
+    }
+}
+
 }  // namespace
 }  // namespace zeeline

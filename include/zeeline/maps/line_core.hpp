@@ -58,6 +58,9 @@ struct LineCoreShape {
 
 /// Reads the core of I within `window_halfwidth_nm` of `centre_nm` (0 = whole spectrum).
 LineCoreShape MeasureLineCore(const PixelSpectrum& s, double continuum, double centre_nm, double window_halfwidth_nm);
+/// The same with the window found from `near_window`, a range of samples close to it (WindowRangeFrom).
+LineCoreShape MeasureLineCore(const PixelSpectrum& s, double continuum, double centre_nm, double window_halfwidth_nm,
+                              SampleRange near_window);
 
 /// The model relation R(u) = ln(2 + u) / (1 + u) above, and its inverse (u = 0 for R >= ln 2).
 double CoreShapeRatio(double saturation);

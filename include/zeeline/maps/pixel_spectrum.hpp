@@ -45,6 +45,11 @@ struct SampleRange {
   std::size_t size() const { return end - begin; }
 };
 SampleRange WindowRange(const double* wavelength_nm, std::size_t n, double centre_nm, double halfwidth_nm);
+/// The same range found by stepping from `near` (a range close to it, e.g. the window around the rest wavelength
+/// for one around a pixel's observed line centre): a few comparisons instead of two binary searches when the
+/// centre has moved by a few samples, the same answer from any start.
+SampleRange WindowRangeFrom(const double* wavelength_nm, std::size_t n, double centre_nm, double halfwidth_nm,
+                            SampleRange near);
 
 /// Sample indices whose wavelength lies in [lo_nm, hi_nm] (inclusive).
 std::vector<std::size_t> SamplesInWindow(const double* wavelength_nm, std::size_t n, double lo_nm, double hi_nm);
