@@ -42,6 +42,8 @@ std::string MeasureOptions::Validate() const {
   if (!(window_halfwidth_nm >= 0.0)) return "window_halfwidth_nm = " + num(window_halfwidth_nm) + ": must be >= 0";
   if (!(noise_rel >= 0.0)) return "noise_rel = " + num(noise_rel) + ": must be >= 0";
   if (!(weak_ratio > 0.0)) return "weak_ratio = " + num(weak_ratio) + ": must be > 0";
+  if (!(transverse_detection >= 0.0))
+    return "transverse_detection = " + num(transverse_detection) + ": must be >= 0";
   if (!(resolution_ratio > 0.0)) return "resolution_ratio = " + num(resolution_ratio) + ": must be > 0";
   if (realisations < 0 || realisations > 100000)
     return "realisations = " + std::to_string(realisations) + ": expected 0 to 100000";
@@ -55,6 +57,9 @@ std::string MeasureOptions::Validate() const {
 namespace {
 
 const double kNaN = std::numeric_limits<double>::quiet_NaN();
+const char* const kTransverseNotDetected =
+    "; linear polarisation not detected (B_T^2 below the detection threshold of `map`'s LOW_TRANSVERSE): B_T, |B|, "
+    "inclination and azimuth are noise-dominated";
 
 Measured M(double v, double e) {
   Measured m;
@@ -334,6 +339,7 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
       m.wfa.verdict += "; not valid beyond the linear regime (mixed-regime pattern: g_eff and G do not apply)";
     }
     if (!w.has_btrans && s.has_qu() && o.pattern.G == 0.0) m.wfa.verdict += "; no B_TRANS: G = 0 for this line";
+    if (w.has_btrans && w.btrans_snr < o.transverse_detection) m.wfa.verdict += kTransverseNotDetected;
   }
 
   // cog
@@ -472,6 +478,10 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
                                                                          (r.converged ? "" : "not converged, ")) +
                      "reduced chi2 " + Fmt("%.3g", r.chi2_reduced) +
                      (o.instrument_fwhm_nm > 0.0 ? "; note: the ME model has no instrument profile" : "");
+      // The map's LOW_TRANSVERSE test on the fitted B_T: B_T^2 against its sigma 2 B_T sigma(B_T).
+      if (s.has_qu() && std::isfinite(r.btrans_gauss) &&
+          !(r.btrans_gauss > 2.0 * o.transverse_detection * r.btrans_err_gauss))
+        m.me.verdict += kTransverseNotDetected;
     }
   }
   return m;

@@ -54,6 +54,26 @@ TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
   EXPECT_NEAR(m.me.blos_gauss.value, blos, kSigmas * m.me.blos_gauss.err);
 }
 
+// A weak, inclined field (20 G at 60 deg): its linear polarisation, ~(C B_T)^2 G/4 times the line's second
+// derivative (LL04 sect. 9.6), is ~1e-5 of the continuum, far below the noise of 1e-3. Both the weak-field
+// and the Milne-Eddington verdicts say so, as `map` flags LOW_TRANSVERSE; a 1 kG field at 60 deg is detected.
+TEST(Measurement, UndetectedLinearPolarisationIsNoted) {
+  for (double field : {20.0, 1000.0}) {
+    MeParameters p;
+    p.field_gauss = field;
+    p.inclination_deg = 60.0;
+    p.azimuth_deg = 30.0;
+    p.doppler_width_nm = 0.003;
+    p.eta0 = 6.0;
+    const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 1e-3, 6);
+    const Measurement m = MeasureSpectrum(s, Options());
+    const bool weak = field < 100.0;
+    ASSERT_TRUE(m.wfa.available && m.me.available) << m.me.verdict;
+    EXPECT_EQ(m.me.verdict.find("linear polarisation not detected") != std::string::npos, weak) << m.me.verdict;
+    if (weak) EXPECT_NE(m.wfa.verdict.find("linear polarisation not detected"), std::string::npos) << m.wfa.verdict;
+  }
+}
+
 TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
   MeParameters p;
   p.field_gauss = 3000.0;

@@ -89,7 +89,7 @@ struct FieldMapOptions {
   double wing_start_nm = 0.0;        ///< weak-field transverse wing region start (0 = 4.8 Doppler widths)
   double weak_ratio = kDefaultWeakRatio;  ///< splitting/Doppler width below which the weak-field answer is used (auto) / valid (wfa)
   double consistency_sigma = 5.0;    ///< weak-field chi2 shape test threshold (weak_field_regime.hpp)
-  double transverse_detection = 6.0; ///< LOW_TRANSVERSE below this many sigma of B_T^2 (weak-field or ME)
+  double transverse_detection = kDefaultTransverseDetection;  ///< LOW_TRANSVERSE below this many sigma of B_T^2 (wfa or ME)
   /// Model accuracy (fraction of B_T) of the saturation-corrected weak-field B_T, in quadrature with its noise
   /// error (weak_field.hpp); 0 = noise only; at most 0.2. LOW_SIGNAL tests B_T against its noise alone.
   double transverse_model_error = WeakFieldOptions{}.corrected_model_error;

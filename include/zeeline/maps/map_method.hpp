@@ -21,6 +21,11 @@ enum class MapMethod {
 /// near a per cent (docs/methods.md).
 inline constexpr double kDefaultWeakRatio = 0.15;
 
+/// The detection test of the linear polarisation in `map` (LOW_TRANSVERSE, --transverse-detection) and
+/// `measure` (a verdict note): B_T^2 below this many of its sigma leaves B_T, |B| and the angles
+/// noise-dominated (docs/methods.md).
+inline constexpr double kDefaultTransverseDetection = 6.0;
+
 /// "wfa", "cog", "split", "me", "auto".
 std::string ToString(MapMethod m);
 /// Inverse of ToString; throws OptionError listing the choices.

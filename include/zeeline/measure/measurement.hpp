@@ -63,6 +63,8 @@ struct MeasureOptions {
   double window_halfwidth_nm = 0.0;     ///< 0 = from the line (see above)
   double noise_rel = 0.0;               ///< noise in units of the continuum; 0 = measured
   double weak_ratio = kDefaultWeakRatio;  ///< wfa valid below this r (maps/map_method.hpp, same as `map`)
+  /// The wfa and me verdicts note undetected linear polarisation below this many sigma of B_T^2 (as `map`).
+  double transverse_detection = kDefaultTransverseDetection;
   double resolution_ratio = 1.0;        ///< sigma separation / component FWHM for "resolved"
   int realisations = 200;               ///< noise realisations for the characteristics' errors
   std::uint32_t seed = 20240611;
