@@ -50,6 +50,22 @@ def fitsverify_clean(path):
     return p.returncode == 0 and "verification OK" in out, out.strip()
 
 
+def model_term_pair(tmp, cube, method, option, name, keyword):
+    """`map --method METHOD` with OPTION 0 and with its default. NAME and QUALITY must not depend on the model
+    term (detection tests use the noise alone). Returns NAME, its sigma without and with the term, and
+    KEYWORD of NAME_SIGMA in both runs."""
+    without, default = os.path.join(tmp, f"{method}_nomodel.fits"), os.path.join(tmp, f"{method}_model.fits")
+    base = ["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", method, "-q"]
+    run(base + [option, "0", "-o", without])
+    run(base + ["-o", default])
+    with fits.open(without) as a, fits.open(default) as b:
+        v = a[name].data.astype(float)
+        check(np.array_equal(v, b[name].data.astype(float), equal_nan=True), f"{name} does not depend on {option}")
+        check(np.array_equal(a["QUALITY"].data, b["QUALITY"].data), f"QUALITY does not depend on {option}")
+        sa, sb = a[name + "_SIGMA"], b[name + "_SIGMA"]
+        return (v, sa.data.astype(float), sb.data.astype(float), sa.header.get(keyword), sb.header.get(keyword))
+
+
 with tempfile.TemporaryDirectory() as tmp:
     cube = os.path.join(tmp, "cube.fits")
     maps = os.path.join(tmp, "maps.fits")
@@ -158,22 +174,15 @@ with tempfile.TemporaryDirectory() as tmp:
     # --transverse-model-error (docs/methods.md): weak-field B_TRANS_SIGMA = hypot(noise sigma, f * B_TRANS) for
     # the saturation-corrected B_T; the noise sigma comes from the run with f = 0 (same B_TRANS, and the same
     # QUALITY: detection tests use the noise alone).
-    wfa0, wfa5 = os.path.join(tmp, "wfa0.fits"), os.path.join(tmp, "wfa5.fits")
-    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "wfa", "--transverse-model-error", "0",
-         "-o", wfa0, "-q"])
-    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "wfa", "-o", wfa5, "-q"])
-    with fits.open(wfa0) as a, fits.open(wfa5) as b:
-        bt = a["B_TRANS"].data.astype(float)
-        sel = np.isfinite(bt) & (bt > 0)
-        check(sel.sum() > 100, f"weak-field B_TRANS pixels on the demo cube: {sel.sum()}")
-        check(np.array_equal(bt, b["B_TRANS"].data.astype(float), equal_nan=True), "B_TRANS does not depend on the model term")
-        check(np.array_equal(a["QUALITY"].data, b["QUALITY"].data), "QUALITY does not depend on the model term")
-        s0, s5 = a["B_TRANS_SIGMA"].data.astype(float)[sel], b["B_TRANS_SIGMA"].data.astype(float)[sel]
-        expect = np.hypot(s0, 0.05 * bt[sel])
-        # Saturation-corrected pixels follow the formula; the rest (no measured core) keep the noise sigma.
-        follows = np.isclose(s5, expect, rtol=1e-4) | np.isclose(s5, s0, rtol=1e-6)
-        check(follows.all(), f"B_TRANS_SIGMA = hypot(noise, 0.05 B_T): {np.count_nonzero(~follows)} pixels differ")
-        check(np.isclose(s5, expect, rtol=1e-4).mean() > 0.5, "most demo pixels carry the model term")
+    bt, s0, s5, _, _ = model_term_pair(tmp, cube, "wfa", "--transverse-model-error", "B_TRANS", "BTMODERR")
+    sel = np.isfinite(bt) & (bt > 0)
+    check(sel.sum() > 100, f"weak-field B_TRANS pixels on the demo cube: {sel.sum()}")
+    s0, s5 = s0[sel], s5[sel]
+    expect = np.hypot(s0, 0.05 * bt[sel])
+    # Saturation-corrected pixels follow the formula; the rest (no measured core) keep the noise sigma.
+    follows = np.isclose(s5, expect, rtol=1e-4) | np.isclose(s5, s0, rtol=1e-6)
+    check(follows.all(), f"B_TRANS_SIGMA = hypot(noise, 0.05 B_T): {np.count_nonzero(~follows)} pixels differ")
+    check(np.isclose(s5, expect, rtol=1e-4).mean() > 0.5, "most demo pixels carry the model term")
     # Few continuum samples (docs/methods.md): a 40-sample, 0.04 nm cube of the same scene leaves fewer than 16,
     # and map says so (with -q too) unless the noise is given; the 96-sample cube above has enough.
     narrow = os.path.join(tmp, "narrow.fits")
@@ -192,20 +201,12 @@ with tempfile.TemporaryDirectory() as tmp:
 
     # --cog-model-error (docs/methods.md): the centre-of-gravity B_LOS_SIGMA = hypot(noise sigma, f |B_LOS|),
     # f = 0.10 by default and written as COGMODER; B_LOS and QUALITY (detection against the noise) unchanged.
-    cog0, cog10 = os.path.join(tmp, "cog0.fits"), os.path.join(tmp, "cog10.fits")
-    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "cog", "--cog-model-error", "0",
-         "-o", cog0, "-q"])
-    run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--method", "cog", "-o", cog10, "-q"])
-    with fits.open(cog0) as a, fits.open(cog10) as b:
-        bl = a["B_LOS"].data.astype(float)
-        sel = np.isfinite(bl)
-        check(sel.sum() > 300, f"centre-of-gravity B_LOS pixels on the demo cube: {sel.sum()}")
-        check(np.array_equal(bl, b["B_LOS"].data.astype(float), equal_nan=True), "B_LOS does not depend on the model term")
-        check(np.array_equal(a["QUALITY"].data, b["QUALITY"].data), "QUALITY does not depend on the model term")
-        s0, s10 = a["B_LOS_SIGMA"].data.astype(float)[sel], b["B_LOS_SIGMA"].data.astype(float)[sel]
-        check(np.allclose(s10, np.hypot(s0, 0.10 * np.abs(bl[sel])), rtol=1e-5), "B_LOS_SIGMA = hypot(noise, 0.1 |B_LOS|)")
-        check(b["B_LOS_SIGMA"].header.get("COGMODER") == 0.1 and a["B_LOS_SIGMA"].header.get("COGMODER") == 0.0,
-              "COGMODER records the model error")
+    bl, s0, s10, k0, k10 = model_term_pair(tmp, cube, "cog", "--cog-model-error", "B_LOS", "COGMODER")
+    sel = np.isfinite(bl)
+    check(sel.sum() > 300, f"centre-of-gravity B_LOS pixels on the demo cube: {sel.sum()}")
+    check(np.allclose(s10[sel], np.hypot(s0[sel], 0.10 * np.abs(bl[sel])), rtol=1e-5),
+          "B_LOS_SIGMA = hypot(noise, 0.1 |B_LOS|)")
+    check(k10 == 0.1 and k0 == 0.0, f"COGMODER records the model error: {k0}, {k10}")
     p = run(["map", cube, "--line", "FeI_6302", "--catalog", CATALOG, "--cog-model-error", "0.5", "-o",
              os.path.join(tmp, "x.fits")], expect_rc=2)
     check("centre-of-gravity model error" in p.stderr, f"bad --cog-model-error message: {p.stderr!r}")

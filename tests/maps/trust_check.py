@@ -89,6 +89,23 @@ def map_cube(cube, out, method, extra=()):
          "--quiet", *extra])
 
 
+def simulate_and_check(tmp, label, maps, seed, range_nm, points, methods):
+    """Synthesise a cube from parameter maps {field, incl, azim, vlos, eta0, doppler} (noise 1e-3) and check
+    that no pixel is silently wrong with each method."""
+    params = os.path.join(tmp, f"{label}_params.fits")
+    write_params(params, maps["field"], maps["incl"], maps["azim"], maps["vlos"], maps["eta0"], maps["doppler"])
+    cube = os.path.join(tmp, f"{label}.fits")
+    run([SIMULATE, "--params", params, "--line", "FeI_6302", "--catalog", CATALOG, "-o", cube, "--noise", "1e-3",
+         "--seed", str(seed), "--range", range_nm, "--points", str(points), "--quiet"])
+    truth = truth_from_params(maps["field"], maps["incl"])
+    for method in methods:
+        out = os.path.join(tmp, f"{label}_{method}.fits")
+        map_cube(cube, out, method)
+        check(silently_wrong(out, truth, f"{label} cube, --method {method}") == 0,
+              f"{label} cube --method {method}: pixels silently wrong")
+    return cube
+
+
 with tempfile.TemporaryDirectory() as tmp:
     rng = np.random.default_rng(20261202)
     # ---- grid cube: every regime at once
@@ -102,21 +119,10 @@ with tempfile.TemporaryDirectory() as tmp:
     nx = 24
     ny = n // nx
     shape = (ny, nx)
-    azim = rng.uniform(0, 180, n)
-    vlos = rng.uniform(-1, 1, n)
-    dop = rng.uniform(2.2e-3, 3.0e-3, n)
-    params = os.path.join(tmp, "grid_params.fits")
-    write_params(params, F.reshape(shape), G.reshape(shape), azim.reshape(shape), vlos.reshape(shape),
-                 E.reshape(shape), dop.reshape(shape))
-    cube = os.path.join(tmp, "grid.fits")
-    run([SIMULATE, "--params", params, "--line", "FeI_6302", "--catalog", CATALOG, "-o", cube, "--noise", "1e-3",
-         "--seed", "7", "--range", "0.08nm", "--points", "128", "--quiet"])
-    truth = truth_from_params(F.reshape(shape), G.reshape(shape))
-    for method in ("auto", "wfa"):
-        out = os.path.join(tmp, f"grid_{method}.fits")
-        map_cube(cube, out, method)
-        check(silently_wrong(out, truth, f"grid cube, --method {method}") == 0,
-              f"grid cube --method {method}: pixels silently wrong")
+    grid = {"field": F, "incl": G, "azim": rng.uniform(0, 180, n), "vlos": rng.uniform(-1, 1, n), "eta0": E,
+            "doppler": rng.uniform(2.2e-3, 3.0e-3, n)}
+    cube = simulate_and_check(tmp, "grid", {k: v.reshape(shape) for k, v in grid.items()}, 7, "0.08nm", 128,
+                              ("auto", "wfa"))
 
     # Values that were not measured are NaN, never absurd numbers (split maps once held 3e10 deg errors).
     for method in ("split", "cog"):
@@ -164,23 +170,11 @@ with tempfile.TemporaryDirectory() as tmp:
     # The fitted B_T is then the length of a noise vector, biased high, and the inclination follows it: such
     # pixels must carry LOW_TRANSVERSE like weak-field ones (on the 479 MiB bench cube 109 of 90 026 unflagged
     # Milne-Eddington pixels were silently wrong before; here 1 600 pixels).
-    n = 40 * 40
     shape = (40, 40)
-    field = rng.uniform(10.0, 40.0, n)
-    incl = rng.uniform(30.0, 150.0, n)
-    params = os.path.join(tmp, "quiet_params.fits")
-    write_params(params, field.reshape(shape), incl.reshape(shape), rng.uniform(0, 180, n).reshape(shape),
-                 rng.uniform(-1.0, 1.0, n).reshape(shape), rng.uniform(3.0, 10.0, n).reshape(shape),
-                 rng.uniform(2.2e-3, 3.0e-3, n).reshape(shape))
-    cube = os.path.join(tmp, "quiet.fits")
-    run([SIMULATE, "--params", params, "--line", "FeI_6302", "--catalog", CATALOG, "-o", cube, "--noise", "1e-3",
-         "--seed", "13", "--range", "0.06nm", "--points", "96", "--quiet"])
-    quiet_truth = truth_from_params(field.reshape(shape), incl.reshape(shape))
-    for method in ("me", "auto"):
-        out = os.path.join(tmp, f"quiet_{method}.fits")
-        map_cube(cube, out, method)
-        check(silently_wrong(out, quiet_truth, f"quiet cube, --method {method}") == 0,
-              f"quiet cube --method {method}: pixels silently wrong")
+    quiet = {"field": rng.uniform(10.0, 40.0, shape), "incl": rng.uniform(30.0, 150.0, shape),
+             "azim": rng.uniform(0, 180, shape), "vlos": rng.uniform(-1.0, 1.0, shape),
+             "eta0": rng.uniform(3.0, 10.0, shape), "doppler": rng.uniform(2.2e-3, 3.0e-3, shape)}
+    simulate_and_check(tmp, "quiet", quiet, 13, "0.06nm", 96, ("me", "auto"))
 
     # ---- the bundled demo and its TRUE_* maps
     with fits.open(DEMO) as d:

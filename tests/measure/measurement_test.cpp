@@ -27,15 +27,26 @@ MeasureOptions Options() {
   return o;
 }
 
-TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
+// A Milne-Eddington atmosphere of Doppler width 3 pm and the given field and line strength.
+MeParameters Atmosphere(double field_gauss, double inclination_deg, double eta0) {
   MeParameters p;
-  p.field_gauss = 80.0;  // g_eff dlambda_B / Doppler width = 0.12, below kDefaultWeakRatio = 0.15
-  p.inclination_deg = 30.0;
-  p.vlos_kms = 0.5;
+  p.field_gauss = field_gauss;
+  p.inclination_deg = inclination_deg;
   p.doppler_width_nm = 0.003;
-  p.eta0 = 6.0;
-  const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 5e-4, 4);
-  const Measurement m = MeasureSpectrum(s, Options());
+  p.eta0 = eta0;
+  return p;
+}
+
+// The measurement of that atmosphere's spectrum (0.06 nm, 241 samples) with Gaussian noise.
+Measurement MeasureAtmosphere(const MeParameters& p, double noise, unsigned seed) {
+  return MeasureSpectrum(testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, noise, seed), Options());
+}
+
+TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
+  // g_eff dlambda_B / Doppler width = 0.12, below kDefaultWeakRatio = 0.15
+  MeParameters p = Atmosphere(80.0, 30.0, 6.0);
+  p.vlos_kms = 0.5;
+  const Measurement m = MeasureAtmosphere(p, 5e-4, 4);
   EXPECT_EQ(m.sense, LineSense::kAbsorption);
   const double blos = p.field_gauss * std::cos(p.inclination_deg * M_PI / 180.0);
   ASSERT_TRUE(m.wfa.available);
@@ -59,14 +70,9 @@ TEST(Measurement, WeakFieldSpectrumValidatesWfaAndNotSplit) {
 // and the Milne-Eddington verdicts say so, as `map` flags LOW_TRANSVERSE; a 1 kG field at 60 deg is detected.
 TEST(Measurement, UndetectedLinearPolarisationIsNoted) {
   for (double field : {20.0, 1000.0}) {
-    MeParameters p;
-    p.field_gauss = field;
-    p.inclination_deg = 60.0;
+    MeParameters p = Atmosphere(field, 60.0, 6.0);
     p.azimuth_deg = 30.0;
-    p.doppler_width_nm = 0.003;
-    p.eta0 = 6.0;
-    const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 1e-3, 6);
-    const Measurement m = MeasureSpectrum(s, Options());
+    const Measurement m = MeasureAtmosphere(p, 1e-3, 6);
     const bool weak = field < 100.0;
     ASSERT_TRUE(m.wfa.available && m.me.available) << m.me.verdict;
     EXPECT_EQ(m.me.verdict.find("linear polarisation not detected") != std::string::npos, weak) << m.me.verdict;
@@ -75,13 +81,9 @@ TEST(Measurement, UndetectedLinearPolarisationIsNoted) {
 }
 
 TEST(Measurement, StrongFieldSpectrumValidatesSplitAndNotWfa) {
-  MeParameters p;
-  p.field_gauss = 3000.0;
-  p.inclination_deg = 0.0;  // COG is exact for a longitudinal field at any strength and saturation
-  p.doppler_width_nm = 0.003;
-  p.eta0 = 3.0;
-  const Spectrum1D s = testing::MakeMeSpectrum(Fe6302(), kRest, {p}, {1.0}, 0.06, 241, 5e-4, 5);
-  const Measurement m = MeasureSpectrum(s, Options());
+  // Longitudinal: COG is exact for a longitudinal field at any strength and saturation.
+  const MeParameters p = Atmosphere(3000.0, 0.0, 3.0);
+  const Measurement m = MeasureAtmosphere(p, 5e-4, 5);
   EXPECT_FALSE(m.wfa.valid) << m.wfa.verdict;
   EXPECT_NE(m.wfa.verdict.find("outside validity"), std::string::npos);
   EXPECT_TRUE(m.split.valid) << m.split.verdict;
