@@ -36,7 +36,7 @@ void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t samples, con
 }
 
 CentreOfGravityWindow CentreOfGravityWindow::Around(const CentreOfGravityWorkspace& work, double centre_nm,
-                                                    double halfwidth_nm) {
+                                                    double halfwidth_nm, const CentreOfGravityWindow* near) {
   CentreOfGravityWindow w;
   if (work.n < 3) return w;
   if (halfwidth_nm > 0.0) {
@@ -45,8 +45,21 @@ CentreOfGravityWindow CentreOfGravityWindow::Around(const CentreOfGravityWorkspa
   }
   const double* const lo = work.cell_lo.data();
   const double* const hi = work.cell_hi.data();
-  w.begin = static_cast<std::size_t>(std::upper_bound(hi, hi + work.n, w.lo_nm) - hi);
-  w.end = static_cast<std::size_t>(std::lower_bound(lo, lo + work.n, w.hi_nm) - lo);
+  const std::size_t n = work.n;
+  if (near) {
+    // The answers of the binary searches below: "hi[i] <= lo_nm" and "lo[i] < hi_nm" each hold for a leading
+    // part of the (increasing) cells, and begin, end are the ends of those parts.
+    std::size_t b = std::min(near->begin, n), e = std::min(near->end, n);
+    while (b > 0 && w.lo_nm < hi[b - 1]) --b;
+    while (b < n && !(w.lo_nm < hi[b])) ++b;
+    while (e > 0 && !(lo[e - 1] < w.hi_nm)) --e;
+    while (e < n && lo[e] < w.hi_nm) ++e;
+    w.begin = b;
+    w.end = e;
+  } else {
+    w.begin = static_cast<std::size_t>(std::upper_bound(hi, hi + n, w.lo_nm) - hi);
+    w.end = static_cast<std::size_t>(std::lower_bound(lo, lo + n, w.hi_nm) - lo);
+  }
   if (w.end <= w.begin) {
     w.end = w.begin;
     return w;
@@ -134,7 +147,7 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
     const double centre = 0.5 * (t.np / t.dp + t.nm / t.dm);
     const double half = std::min({o.window_halfwidth_nm, centre - lo[0], hi[s.n - 1] - centre});
     if (!(half > 0.0)) break;
-    const CentreOfGravityWindow moved = CentreOfGravityWindow::Around(work, centre, half);
+    const CentreOfGravityWindow moved = CentreOfGravityWindow::Around(work, centre, half, &win);
     if (moved.end - moved.begin < 3) break;
     move_sums(t, win, moved);
     win = moved;

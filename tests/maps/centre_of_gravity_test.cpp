@@ -98,5 +98,32 @@ TEST(CentreOfGravityWindow, StaysSymmetricNearAnEndOfTheSpectrum) {
   EXPECT_NEAR(r.vlos_kms, 9.0, 5e-3);
 }
 
+// A window found by stepping from a nearby one is the window the binary searches find, from any start.
+TEST(CentreOfGravityWindow, FromANearWindowIsTheSameWindow) {
+  std::vector<double> wl;
+  for (std::size_t i = 0; i < 50; ++i) wl.push_back(kRest - 0.025 + 1e-3 * static_cast<double>(i));
+  CentreOfGravityOptions o;
+  o.rest_wavelength_nm = kRest;
+  o.g_eff = kGeff;
+  o.window_halfwidth_nm = kWindow;
+  CentreOfGravityWorkspace work;
+  work.Prepare(wl.data(), wl.size(), o);
+  for (double centre : {kRest - 0.03, kRest - 0.0161, kRest, kRest + 0.00049, kRest + 0.02, std::nan("")})
+    for (double half : {0.0005, 0.003, 0.0125, 1.0}) {
+      const CentreOfGravityWindow want = CentreOfGravityWindow::Around(work, centre, half);
+      for (std::size_t b = 0; b <= wl.size(); b += 7)
+        for (std::size_t e : {b, std::min<std::size_t>(b + 9, wl.size()), wl.size()}) {
+          CentreOfGravityWindow near;
+          near.begin = b;
+          near.end = e;
+          const CentreOfGravityWindow got = CentreOfGravityWindow::Around(work, centre, half, &near);
+          EXPECT_EQ(got.begin, want.begin) << centre << " " << half << " " << b << " " << e;
+          EXPECT_EQ(got.end, want.end) << centre << " " << half << " " << b << " " << e;
+          EXPECT_EQ(got.first_weight, want.first_weight) << centre << " " << half;
+          EXPECT_EQ(got.last_weight, want.last_weight) << centre << " " << half;
+        }
+    }
+}
+
 }  // namespace
 }  // namespace zeeline
