@@ -140,8 +140,10 @@ LineCoreShape MeasureLineCore(const PixelSpectrum& s, double ic, double centre_n
   // Extremum of |Ic - I| in the window (its first sample), and the sense of the line.
   const double best = MaxDepth(s.I, win, ic);
   std::size_t k = win.begin;
+  // The first sample at the maximum: best is one of these very values (the same IEEE operations), so the walk
+  // stops inside the window.
   if (best > 0.0)
-    while (!(std::fabs(ic - s.I[k]) == best)) ++k;  // the first sample at the maximum (there is one)
+    while (!(std::fabs(ic - s.I[k]) == best)) ++k;
   if (!(best > 0.0) || k < win.begin + 3 || k + 4 > win.end) return r;
   r.emission = s.I[k] > ic;
   const double sign = r.emission ? -1.0 : 1.0;  // depth(i) = sign * (ic - I)
