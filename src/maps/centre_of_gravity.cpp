@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <sstream>
 #include <string>
 
 #include "zeeline/core/constants.hpp"
@@ -13,26 +14,45 @@ namespace zeeline {
 std::string CentreOfGravityOptions::Validate() const {
   const std::string line = ValidateLineOptions(rest_wavelength_nm, g_eff, window_halfwidth_nm);
   if (!line.empty()) return line;
+  std::ostringstream m;
   if (!(model_error >= 0.0 && model_error <= 0.3))
-    return "centre-of-gravity model error = " + std::to_string(model_error) + " must be in [0, 0.3]";
-  return "";
+    m << "centre-of-gravity model error = " << model_error << " must be in [0, 0.3]";
+  return m.str();
 }
+
+namespace {
+// How far above their noise the first window's sums must stand before the window follows the line.
+constexpr double kMoveSignificance = 5.0;
+
+// fn(i, weight) for each sample of the window in order: the end samples with their cut weights, the others
+// with their whole cells.
+template <class Fn>
+void ForEachWeighted(const CentreOfGravityWindow& w, const double* cell_width_nm, Fn&& fn) {
+  if (w.end <= w.begin) return;
+  fn(w.begin, w.first_weight_nm);
+  for (std::size_t i = w.begin + 1; i + 1 < w.end; ++i) fn(i, cell_width_nm[i]);
+  if (w.end - 1 > w.begin) fn(w.end - 1, w.last_weight_nm);
+}
+}  // namespace
 
 void CentreOfGravityWorkspace::Prepare(const double* l, std::size_t samples, const CentreOfGravityOptions& o) {
   wavelength_nm = l;
   n = samples;
-  cell_lo.assign(n, 0.0);
-  cell_hi.assign(n, 0.0);
-  cell_width.assign(n, 0.0);
+  cell_lo_nm.assign(n, 0.0);
+  cell_hi_nm.assign(n, 0.0);
+  cell_width_nm.assign(n, 0.0);
   if (n < 3) return;
   // Sample i stands for [midpoint to its left neighbour, midpoint to its right one]; the end samples for a
   // cell as wide as their one step, centred on them. The cell widths are the trapezoid weights.
   for (std::size_t i = 0; i < n; ++i) {
-    cell_lo[i] = i > 0 ? 0.5 * (l[i - 1] + l[i]) : l[0] - 0.5 * (l[1] - l[0]);
-    cell_hi[i] = i + 1 < n ? 0.5 * (l[i] + l[i + 1]) : l[n - 1] + 0.5 * (l[n - 1] - l[n - 2]);
-    cell_width[i] = cell_hi[i] - cell_lo[i];
+    cell_lo_nm[i] = i > 0 ? 0.5 * (l[i - 1] + l[i]) : l[0] - 0.5 * (l[1] - l[0]);
+    cell_hi_nm[i] = i + 1 < n ? 0.5 * (l[i] + l[i + 1]) : l[n - 1] + 0.5 * (l[n - 1] - l[n - 2]);
+    cell_width_nm[i] = cell_hi_nm[i] - cell_lo_nm[i];
   }
   first = CentreOfGravityWindow::Around(*this, o.rest_wavelength_nm, o.window_halfwidth_nm);
+  double sum_w2 = 0.0;
+  ForEachWeighted(first, cell_width_nm.data(), [&](std::size_t, double w) { sum_w2 += w * w; });
+  first_weight_rms_nm = std::sqrt(sum_w2);
 }
 
 CentreOfGravityWindow CentreOfGravityWindow::Around(const CentreOfGravityWorkspace& work, double centre_nm,
@@ -43,8 +63,8 @@ CentreOfGravityWindow CentreOfGravityWindow::Around(const CentreOfGravityWorkspa
     w.lo_nm = centre_nm - halfwidth_nm;
     w.hi_nm = centre_nm + halfwidth_nm;
   }
-  const double* const lo = work.cell_lo.data();
-  const double* const hi = work.cell_hi.data();
+  const double* const lo = work.cell_lo_nm.data();
+  const double* const hi = work.cell_hi_nm.data();
   const std::size_t n = work.n;
   if (near) {
     // The answers of the binary searches below: "hi[i] <= lo_nm" and "lo[i] < hi_nm" each hold for a leading
@@ -65,22 +85,11 @@ CentreOfGravityWindow CentreOfGravityWindow::Around(const CentreOfGravityWorkspa
     return w;
   }
   auto inside = [&](std::size_t i) { return std::min(hi[i], w.hi_nm) - std::max(lo[i], w.lo_nm); };
-  w.first_weight = inside(w.begin);
-  w.last_weight = inside(w.end - 1);
+  w.first_weight_nm = inside(w.begin);
+  w.last_weight_nm = inside(w.end - 1);
   return w;
 }
 
-namespace {
-// fn(i, weight) for each sample of the window in order: the end samples with their cut weights, the others
-// with their whole cells.
-template <class Fn>
-void ForEachWeighted(const CentreOfGravityWindow& w, const double* cell_width, Fn&& fn) {
-  if (w.end <= w.begin) return;
-  fn(w.begin, w.first_weight);
-  for (std::size_t i = w.begin + 1; i + 1 < w.end; ++i) fn(i, cell_width[i]);
-  if (w.end - 1 > w.begin) fn(w.end - 1, w.last_weight);
-}
-}  // namespace
 
 CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                               const CentreOfGravityOptions& o) {
@@ -98,9 +107,9 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
   const double* l = s.wavelength_nm;
   const double* I = s.I;
   const double* V = s.V;
-  const double* const lo = work.cell_lo.data();
-  const double* const hi = work.cell_hi.data();
-  const double* const width = work.cell_width.data();
+  const double* const lo = work.cell_lo_nm.data();
+  const double* const hi = work.cell_hi_nm.data();
+  const double* const width = work.cell_width_nm.data();
   // The centroid sums over a window; usable when both sums have the same, non-negligible sign.
   struct Sums {
     double np = 0.0, dp = 0.0, nm = 0.0, dm = 0.0;
@@ -142,9 +151,14 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
   // half-width: pulls of 5 and 29). The window follows the line, centred on the mean of the centroids; each
   // move leaves that small fraction of the previous offset, so two moves suffice. A move changes the
   // weights of the few samples about the edges only, so the sums are updated, not summed again.
-  // Near an end of the spectrum the window shrinks to stay symmetric about the line.
-  for (int move = 0; move < 2 && o.window_halfwidth_nm > 0.0 && usable(t); ++move) {
+  // Near an end of the spectrum the window shrinks to stay symmetric about the line. Without a line (only
+  // noise in the window) the centroids can land anywhere, so the window moves only when both absorption (or
+  // emission) sums of the first window stand kMoveSignificance times above their noise.
+  const double sum_noise = std::hypot(noise.noise_I, noise.noise_V) * work.first_weight_rms_nm;
+  const bool line_seen = std::fabs(t.dp) > kMoveSignificance * sum_noise && std::fabs(t.dm) > kMoveSignificance * sum_noise;
+  for (int move = 0; move < 2 && line_seen && o.window_halfwidth_nm > 0.0 && usable(t); ++move) {
     const double centre = 0.5 * (t.np / t.dp + t.nm / t.dm);
+    if (!std::isfinite(centre)) break;
     const double half = std::min({o.window_halfwidth_nm, centre - lo[0], hi[s.n - 1] - centre});
     if (!(half > 0.0)) break;
     const CentreOfGravityWindow moved = CentreOfGravityWindow::Around(work, centre, half, &win);
@@ -177,7 +191,9 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
     var_mean += dI_mean * dI_mean * nI * nI + dV_mean * dV_mean * nV * nV;
   });
   r.blos_noise_err_gauss = std::sqrt(var_diff) / (2.0 * C * std::fabs(o.g_eff));
-  r.blos_err_gauss = std::hypot(r.blos_noise_err_gauss, o.model_error * r.blos_gauss);
+  // The model term is that of saturated absorption lines; an optically thin emission line (dp < 0: a lamp)
+  // has none (the centroids' separation is then exact, tests/maps/estimators_test.cpp).
+  r.blos_err_gauss = std::hypot(r.blos_noise_err_gauss, dp > 0.0 ? o.model_error * r.blos_gauss : 0.0);
   r.vlos_err_kms = c_kms * std::sqrt(var_mean) / o.rest_wavelength_nm;
   r.ok = std::isfinite(r.blos_gauss) && std::isfinite(r.vlos_kms);
   return r;

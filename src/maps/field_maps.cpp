@@ -350,10 +350,11 @@ class PixelProcessor {
     if (!r.converged) out.quality |= kQualityNotConverged;
     if (r.bad_fit) out.quality |= kQualityBadFit;
     // Undetected linear polarisation, the weak-field pixels' test on the fitted B_T: B_T^2 below
-    // transverse_detection times its sigma, 2 B_T sigma(B_T). The fitted B_T is then the length of a noise-
-    // dominated vector, biased high, and the inclination and azimuth follow it: on the 479 MiB bench cube
-    // (noise 1e-3) 109 of 90 026 such pixels had B_T, |B|, B_INCL or B_AZIM > 5 sigma and > 20 % off, all below the test.
-    if (has_qu_ && std::isfinite(out.v[kSlotBtrans]) &&
+    // transverse_detection times its sigma, 2 B_T sigma(B_T) (a NaN sigma counts as not detected; 0 turns the
+    // test off, as for weak-field pixels). The fitted B_T is then the length of a noise-dominated vector, biased
+    // high, and the inclination and azimuth follow it: on the 479 MiB bench cube (noise 1e-3) 109 values of
+    // 90 026 unflagged such pixels were > 5 sigma and > 20 % off (B_T, |B|, B_INCL, B_AZIM); the test flags all.
+    if (has_qu_ && o_.transverse_detection > 0.0 && std::isfinite(out.v[kSlotBtrans]) &&
         !(out.v[kSlotBtrans] > 2.0 * o_.transverse_detection * out.v[kSlotBtransErr]))
       out.quality |= kQualityLowTransverse;
     const double k = o_.detection_sigma;

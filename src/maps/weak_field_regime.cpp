@@ -88,7 +88,10 @@ SplitCheck CheckSplit(const SplittingResult& sp, const CentreOfGravityResult* g,
     c.reason = buf;
     return c;
   }
-  if (g && g->ok && std::fabs(g->blos_gauss) > sp.field_gauss + 3.0 * std::hypot(sp.field_err_gauss, g->blos_err_gauss)) {
+  // Against the noise of the centre of gravity alone: its model term is for B_LOS reading low (saturation),
+  // which cannot explain a |B_LOS| above the split |B| (centre_of_gravity.hpp).
+  if (g && g->ok &&
+      std::fabs(g->blos_gauss) > sp.field_gauss + 3.0 * std::hypot(sp.field_err_gauss, g->blos_noise_err_gauss)) {
     c.inconsistent = true;
     std::snprintf(buf, sizeof buf, "|B| = %.4g G is below the centre-of-gravity |B_LOS| = %.4g G", sp.field_gauss,
                   std::fabs(g->blos_gauss));

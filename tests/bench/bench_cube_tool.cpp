@@ -250,8 +250,15 @@ int Bare(const char* path, int repeats, bool checks) {
   fits_get_img_size(f, 4, n, &status);
   Check(status, path);
   const long nx = n[0], ny = n[1], nl = n[2], rows = 16;
-  if (n[3] != 4 || nl < 3) {
-    std::fprintf(stderr, "bench_cube_tool: %s: bare needs x, y, wavelength, Stokes IQUV axes\n", path);
+  char ctype3[FLEN_VALUE] = "", ctype4[FLEN_VALUE] = "";
+  int st = 0;
+  fits_read_key(f, TSTRING, "CTYPE3", ctype3, nullptr, &st);
+  fits_read_key(f, TSTRING, "CTYPE4", ctype4, nullptr, &st);
+  const bool spectral = std::strstr(ctype3, "WAV") || std::strstr(ctype3, "FREQ");
+  if (st || !spectral || !std::strstr(ctype4, "STOKES") || n[3] != 4 || nl < (checks ? 7 : 3)) {
+    std::fprintf(stderr, "bench_cube_tool: %s: bare needs x, y, wavelength (%s), Stokes IQUV axes in that order\n",
+                 path, checks ? "at least 7 samples" : "at least 3 samples");
+    fits_close_file(f, &status);
     return 2;
   }
   std::vector<float> block(static_cast<std::size_t>(nx * rows * nl * 4));
@@ -376,9 +383,17 @@ int Reshape(const char* in_path, const char* out_path, const std::string& order,
 int main(int argc, char** argv) {
   if (argc >= 3 && std::strcmp(argv[1], "floor") == 0) return Floor(argv[2], argc > 3 ? std::atoi(argv[3]) : 3);
   if (argc >= 3 && std::strcmp(argv[1], "bare") == 0) {
-    const bool checks = argc > 3 && std::strcmp(argv[argc - 1], "--checks") == 0;
-    const int numbers = argc - (checks ? 1 : 0);
-    return Bare(argv[2], numbers > 3 ? std::atoi(argv[3]) : 3, checks);
+    bool checks = false;
+    int repeats = 3;
+    for (int i = 3; i < argc; ++i) {
+      if (std::strcmp(argv[i], "--checks") == 0) checks = true;
+      else repeats = std::atoi(argv[i]);
+    }
+    if (repeats < 1) {
+      std::fprintf(stderr, "bench_cube_tool: bare: REPEATS must be a whole number >= 1\n");
+      return 2;
+    }
+    return Bare(argv[2], repeats, checks);
   }
   if (argc >= 5 && std::strcmp(argv[1], "reshape") == 0)
     return Reshape(argv[2], argv[3], argv[4], argc > 5 ? std::atol(argv[5]) : 1);

@@ -11,8 +11,9 @@ and fitsverify (Debian fitsverify).
   (exit 1, message names the file and Q and U), a bad method name exits 2.
 * A cube with fewer than 16 continuum samples gets the few-continuum warning, unless --noise is given.
 * --transverse-model-error: B_TRANS_SIGMA = hypot(noise sigma, f B_TRANS) (docs/methods.md), B_TRANS unchanged;
-* --cog-model-error: the centre-of-gravity B_LOS_SIGMA = hypot(noise sigma, f |B_LOS|), COGMODER written;
   QUALITY unchanged (detection uses the noise alone); a value outside [0, 0.2] exits 2.
+* --cog-model-error: the centre-of-gravity B_LOS_SIGMA = hypot(noise sigma, f |B_LOS|), COGMODER written, B_LOS and
+  QUALITY unchanged; a value outside [0, 0.3] exits 2.
 Usage: /usr/bin/python3 map_cli_check.py /path/to/zeeline
 """
 import os

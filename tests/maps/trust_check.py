@@ -64,9 +64,10 @@ def truth_from_params(field, incl):
     return {FIELD: field, BLOS: field * np.cos(g), BTRANS: field * np.sin(g), INCL: incl}
 
 
-def silently_wrong(maps_path, truth, label):
+def silently_wrong(maps_path, truth, label, ignore_bits=0, min_usable=0):
+    """Silently wrong values among the pixels whose QUALITY, IGNORE_BITS aside, is 0 (at least MIN_USABLE)."""
     with fits.open(maps_path) as m:
-        q = m["QUALITY"].data
+        q = m["QUALITY"].data & ~ignore_bits
         count = 0
         for name, t in truth.items():
             v = m[name].data.astype(float)
@@ -80,7 +81,9 @@ def silently_wrong(maps_path, truth, label):
                 for y, x in list(zip(ys, xs))[:3]:
                     print(f"  {label} {name} pixel x={x + 1} y={y + 1}: {v[y, x]:.4g} +- {e[y, x]:.3g}, truth {t[y, x]:.4g}")
         usable = int((q == 0).sum())
-        print(f"{label}: {count} silently wrong values; {usable} of {q.size} pixels with QUALITY 0")
+        print(f"{label}: {count} silently wrong values; {usable} of {q.size} pixels with QUALITY 0"
+              + (f" (bits {ignore_bits} aside)" if ignore_bits else ""))
+        check(usable >= min_usable, f"{label}: {usable} usable pixels, expected at least {min_usable}")
         return count
 
 
@@ -175,6 +178,12 @@ with tempfile.TemporaryDirectory() as tmp:
              "azim": rng.uniform(0, 180, shape), "vlos": rng.uniform(-1.0, 1.0, shape),
              "eta0": rng.uniform(3.0, 10.0, shape), "doppler": rng.uniform(2.2e-3, 3.0e-3, shape)}
     simulate_and_check(tmp, "quiet", quiet, 13, "0.06nm", 96, ("me", "auto"))
+    # Nearly all those pixels are flagged LOW_TRANSVERSE; their B_LOS, which the flag does not concern
+    # (docs/fits.md), must still be right.
+    los_truth = {BLOS: truth_from_params(quiet["field"], quiet["incl"])[BLOS]}
+    for method in ("me", "auto"):
+        check(silently_wrong(os.path.join(tmp, f"quiet_{method}.fits"), los_truth, f"quiet cube B_LOS, --method {method}",
+                             ignore_bits=1024, min_usable=1000) == 0, f"quiet cube --method {method}: B_LOS silently wrong")
 
     # ---- the bundled demo and its TRUE_* maps
     with fits.open(DEMO) as d:

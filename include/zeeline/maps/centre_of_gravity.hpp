@@ -11,7 +11,8 @@
 // Window: centre +- window_halfwidth_nm, each sample weighted by the part of its cell (its trapezoid weight)
 // inside, so the window's edges are exact, not whole samples. It starts on the rest wavelength and then
 // follows the line: re-centred twice on (l_+ + l_-)/2, narrowed where it would reach past an end of the
-// spectrum so that it stays symmetric about the line. A window that stays on the rest wavelength cuts a shifted
+// spectrum so that it stays symmetric about the line. It moves only when the first window's sums stand 5 times
+// above their noise (without a line the centroids of noise land anywhere). A window that stays on the rest wavelength cuts a shifted
 // line unevenly, and the centroids are pulled toward its centre. The effect is measured in
 // tests/maps/centre_of_gravity_test.cpp.
 // Uncertainties: first-order propagation of independent noise sigma_I, sigma_V through both centroids
@@ -21,7 +22,8 @@
 // magneto-optical effects enter I. At 45 deg and eta0 = 9 the centre of gravity reads 8-12 % low at kilogauss
 // fields (tests/maps/cog_me_test.cpp). On 12 000 mixed pixels (eta0 3-20, 10 G - 3 kG, all inclinations) it reads
 // 8-9 % low (median; 5-95 %: -17 to +4 %) at 0.3-2 kG, and the noise-only B_LOS pull sd was 9-16 there. Without Q and U the
-// inclination is unknown, so the default 0.10 covers that range.
+// inclination is unknown, so the default 0.10 covers that range. Absorption lines only: an optically thin
+// emission line (a lab lamp) has no such error, and gets no term.
 #pragma once
 
 #include <cmath>
@@ -60,7 +62,7 @@ struct CentreOfGravityWorkspace;
 struct CentreOfGravityWindow {
   double lo_nm = -HUGE_VAL, hi_nm = HUGE_VAL;  ///< unbounded: the whole spectrum
   std::size_t begin = 0, end = 0;
-  double first_weight = 0.0, last_weight = 0.0;  ///< the parts of the end samples' cells inside
+  double first_weight_nm = 0.0, last_weight_nm = 0.0;  ///< the parts of the end samples' cells inside
   /// centre_nm +- halfwidth_nm (the whole spectrum when halfwidth_nm <= 0). With `near` (a window close to the
   /// new one, e.g. the one it moves from), the ends are found by stepping from near's: a few comparisons
   /// instead of two binary searches, the same window.
@@ -76,9 +78,10 @@ struct CentreOfGravityWindow {
 struct CentreOfGravityWorkspace {
   const double* wavelength_nm = nullptr;     ///< the prepared grid (checked against each pixel's)
   std::size_t n = 0;
-  std::vector<double> cell_lo, cell_hi;      ///< sample i stands for [cell_lo[i], cell_hi[i]]
-  std::vector<double> cell_width;            ///< cell_hi - cell_lo: the trapezoid weight
+  std::vector<double> cell_lo_nm, cell_hi_nm;  ///< sample i stands for [cell_lo_nm[i], cell_hi_nm[i]]
+  std::vector<double> cell_width_nm;          ///< cell_hi_nm - cell_lo_nm: the trapezoid weight
   CentreOfGravityWindow first;               ///< on the rest wavelength
+  double first_weight_rms_nm = 0.0;          ///< sqrt(sum of the first window's squared weights)
   void Prepare(const double* wavelength_nm, std::size_t n, const CentreOfGravityOptions& options);
 };
 CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, const ContinuumEstimate& noise,
