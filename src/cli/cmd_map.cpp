@@ -213,7 +213,8 @@ void RunMap(const MapArgs& a) {
      << o.wing_start_nm << "|" << o.weak_ratio << "|" << o.resolution_ratio << "|" << o.detection_sigma << "|"
      << a.v_sign << "|" << a.fix << "|" << a.free << "|" << a.bounds << "|" << a.stokes_weights << "|" << a.restarts
      << "|" << a.max_iterations << "|" << a.bad_chi2 << "|" << a.mu << "|" << a.no_auto_me << "|"
-     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.transverse_model_error << "|" << o.cog_model_error << "|"
+     << o.mixed_from_gauss << "|" << o.transverse_detection << "|" << o.transverse_model_error << "|"
+     << o.cog_model_error << "|"
      << o.consistency_sigma << "|" << a.tile_mib;
   for (const auto& e : a.extra_lines) fp << "|" << e;
   FieldMapRunOptions run;

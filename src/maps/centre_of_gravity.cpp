@@ -90,7 +90,6 @@ CentreOfGravityWindow CentreOfGravityWindow::Around(const CentreOfGravityWorkspa
   return w;
 }
 
-
 CentreOfGravityResult CentreOfGravityEstimate(const PixelSpectrum& s, const ContinuumEstimate& noise,
                                               const CentreOfGravityOptions& o) {
   CentreOfGravityWorkspace work;
@@ -155,7 +154,8 @@ CentreOfGravityResult CentreOfGravityEstimatePrepared(const PixelSpectrum& s, co
   // noise in the window) the centroids can land anywhere, so the window moves only when both absorption (or
   // emission) sums of the first window stand kMoveSignificance times above their noise.
   const double sum_noise = std::hypot(noise.noise_I, noise.noise_V) * work.first_weight_rms_nm;
-  const bool line_seen = std::fabs(t.dp) > kMoveSignificance * sum_noise && std::fabs(t.dm) > kMoveSignificance * sum_noise;
+  const bool line_seen =
+      std::fabs(t.dp) > kMoveSignificance * sum_noise && std::fabs(t.dm) > kMoveSignificance * sum_noise;
   for (int move = 0; move < 2 && line_seen && o.window_halfwidth_nm > 0.0 && usable(t); ++move) {
     const double centre = 0.5 * (t.np / t.dp + t.nm / t.dm);
     if (!std::isfinite(centre)) break;

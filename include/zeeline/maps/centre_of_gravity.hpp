@@ -9,21 +9,22 @@
 // toward the observer V > 0 in the blue wing of an absorption line, so I + V is absorbed on the red side
 // and l_+ > l_-; the same formula holds for emission lines (numerator and denominator change sign together).
 // Window: centre +- window_halfwidth_nm, each sample weighted by the part of its cell (its trapezoid weight)
-// inside, so the window's edges are exact, not whole samples. It starts on the rest wavelength and then
-// follows the line: re-centred twice on (l_+ + l_-)/2, narrowed where it would reach past an end of the
-// spectrum so that it stays symmetric about the line. It moves only when the first window's sums stand 5 times
-// above their noise (without a line the centroids of noise land anywhere). A window that stays on the rest wavelength cuts a shifted
-// line unevenly, and the centroids are pulled toward its centre. The effect is measured in
-// tests/maps/centre_of_gravity_test.cpp.
+// inside, so the window's edges are exact, not whole samples. It starts on the rest wavelength. A window that
+// stays there cuts a shifted line unevenly and pulls the centroids toward its centre, so it then follows the
+// line: re-centred twice on (l_+ + l_-)/2, and narrowed where it would reach past an end of the spectrum, so
+// that it stays symmetric about the line. It moves only when the first window's sums stand 5 times above their
+// noise (without a line the centroids of noise land anywhere). Measured in tests/maps/centre_of_gravity_test.cpp.
 // Uncertainties: first-order propagation of independent noise sigma_I, sigma_V through both centroids
 // (the I noise is common to l_+ and l_- and enters with its correlation), and for B_LOS a model term,
 // model_error x |B_LOS| in quadrature. The centroids' separation is exact for a longitudinal field (within 1 %
-// on saturated Milne-Eddington lines) but not for an inclined one on a saturated line: linear polarisation and
-// magneto-optical effects enter I. At 45 deg and eta0 = 9 the centre of gravity reads 8-12 % low at kilogauss
-// fields (tests/maps/cog_me_test.cpp). On 12 000 mixed pixels (eta0 3-20, 10 G - 3 kG, all inclinations) it reads
-// 8-9 % low (median; 5-95 %: -17 to +4 %) at 0.3-2 kG, and the noise-only B_LOS pull sd was 9-16 there. Without Q and U the
-// inclination is unknown, so the default 0.10 covers that range. Absorption lines only: an optically thin
-// emission line (a lab lamp) has no such error, and gets no term.
+// on saturated Milne-Eddington lines), but not for an inclined one on a saturated line: linear polarisation
+// and magneto-optical effects enter I.
+//   - At 45 deg and eta0 = 9 the centre of gravity reads 8-12 % low at kilogauss fields
+//     (tests/maps/cog_me_test.cpp).
+//   - On 12 000 mixed pixels (eta0 3-20, 10 G - 3 kG, all inclinations) it reads 8-9 % low at 0.3-2 kG (median;
+//     5-95 %: -17 to +4 %), and the noise-only B_LOS pull sd there was 9-16.
+// Without Q and U the inclination is unknown, so the default 0.10 covers that range. The term applies to
+// absorption lines only: an optically thin emission line (a lab lamp) has no such error, and gets none.
 #pragma once
 
 #include <cmath>

@@ -89,7 +89,8 @@ struct FieldMapOptions {
   double wing_start_nm = 0.0;        ///< weak-field transverse wing region start (0 = 4.8 Doppler widths)
   double weak_ratio = kDefaultWeakRatio;  ///< splitting/Doppler width below which the weak-field answer is used (auto) / valid (wfa)
   double consistency_sigma = 5.0;    ///< weak-field chi2 shape test threshold (weak_field_regime.hpp)
-  double transverse_detection = kDefaultTransverseDetection;  ///< LOW_TRANSVERSE below this many sigma of B_T^2 (wfa or ME)
+  /// LOW_TRANSVERSE below this many sigma of B_T^2 (weak-field or ME pixels; 0 = never).
+  double transverse_detection = kDefaultTransverseDetection;
   /// Model accuracy (fraction of B_T) of the saturation-corrected weak-field B_T, in quadrature with its noise
   /// error (weak_field.hpp); 0 = noise only; at most 0.2. LOW_SIGNAL tests B_T against its noise alone.
   double transverse_model_error = WeakFieldOptions{}.corrected_model_error;
