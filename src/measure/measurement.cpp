@@ -479,7 +479,7 @@ Measurement MeasureSpectrum(const Spectrum1D& s, const MeasureOptions& o) {
                      "reduced chi2 " + Fmt("%.3g", r.chi2_reduced) +
                      (o.instrument_fwhm_nm > 0.0 ? "; note: the ME model has no instrument profile" : "");
       // The map's LOW_TRANSVERSE test on the fitted B_T: B_T^2 against its sigma 2 B_T sigma(B_T).
-      if (s.has_qu() && std::isfinite(r.btrans_gauss) &&
+      if (s.has_qu() && o.transverse_detection > 0.0 && std::isfinite(r.btrans_gauss) &&
           !(r.btrans_gauss > 2.0 * o.transverse_detection * r.btrans_err_gauss))
         m.me.verdict += kTransverseNotDetected;
     }
