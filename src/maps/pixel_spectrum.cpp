@@ -61,13 +61,25 @@ std::vector<std::size_t> ContinuumSamples(const double* wavelength_nm, std::size
 ContinuumRuns MakeContinuumRuns(const std::vector<std::size_t>& continuum_samples) {
   ContinuumRuns r;
   r.samples = continuum_samples.size();
-  r.noise_dof = NoiseDegreesOfFreedom(continuum_samples);
   for (std::size_t j = 0; j < continuum_samples.size();) {
     std::size_t e = j + 1;
     while (e < continuum_samples.size() && continuum_samples[e] == continuum_samples[e - 1] + 1) ++e;
     r.runs.push_back({continuum_samples[j], continuum_samples[j] + (e - j)});
     j = e;
   }
+  // Degrees of freedom (NoiseDegreesOfFreedom). Second differences of white noise: var(d) = 6 sigma^2,
+  // correlation -2/3 at lag 1 and 1/6 at lag 2 within a run, none across runs. For S = sum of the m squared
+  // differences (d Gaussian, cov(d_i^2, d_j^2) = 2 cov(d_i, d_j)^2): var(S) = 72 sigma^4 sum over runs of
+  // [m_r + (8/9)(m_r - 1)+ + (1/18)(m_r - 2)+], with m_r = (run length - 2)+, E[S] = 6 m sigma^2, and
+  // dof = 2 E[S]^2 / var(S).
+  double m = 0.0, v = 0.0;
+  for (const SampleRange& run : r.runs) {
+    const double mr = run.size() > 2 ? static_cast<double>(run.size() - 2) : 0.0;
+    v += mr + (8.0 / 9.0) * std::max(mr - 1.0, 0.0) + (1.0 / 18.0) * std::max(mr - 2.0, 0.0);
+    m += mr;
+  }
+  // Fewer than 3 differences: NoiseSigmas falls back to the standard deviation about the mean (n - 1 dof).
+  r.noise_dof = m < 3.0 ? (r.samples > 1 ? static_cast<double>(r.samples - 1) : 0.0) : m * m / v;
   return r;
 }
 
@@ -208,28 +220,6 @@ ContinuumEstimate EstimateContinuumAtLevel(const PixelSpectrum& s, const Continu
   return c;
 }
 
-double NoiseDegreesOfFreedom(const std::vector<std::size_t>& samples) {
-  // Second differences of white noise: var(d) = 6 sigma^2, correlation -2/3 at lag 1 and 1/6 at lag 2 within a
-  // run of consecutive samples, none across runs. For S = sum of the m squared differences (d Gaussian,
-  // cov(d_i^2, d_j^2) = 2 cov(d_i, d_j)^2): var(S) = 72 sigma^4 sum over runs of
-  // [m_r + (8/9)(m_r - 1)+ + (1/18)(m_r - 2)+], E[S] = 6 m sigma^2, and dof = 2 E[S]^2 / var(S).
-  double m = 0.0, v = 0.0, run = 0.0;
-  auto close_run = [&] {
-    v += run + (8.0 / 9.0) * std::max(run - 1.0, 0.0) + (1.0 / 18.0) * std::max(run - 2.0, 0.0);
-    m += run;
-    run = 0.0;
-  };
-  for (std::size_t j = 1; j + 1 < samples.size(); ++j) {
-    if (samples[j - 1] + 1 == samples[j] && samples[j] + 1 == samples[j + 1]) {
-      run += 1.0;
-    } else if (run > 0.0) {
-      close_run();
-    }
-  }
-  close_run();
-  // Fewer than 3 differences: NoiseSigmas falls back to the standard deviation about the mean (n - 1 dof).
-  if (m < 3.0) return samples.size() > 1 ? static_cast<double>(samples.size() - 1) : 0.0;
-  return m * m / v;
-}
+double NoiseDegreesOfFreedom(const std::vector<std::size_t>& samples) { return MakeContinuumRuns(samples).noise_dof; }
 
 }  // namespace zeeline

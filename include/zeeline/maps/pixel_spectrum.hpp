@@ -61,9 +61,8 @@ std::vector<std::size_t> ContinuumSamples(const double* wavelength_nm, std::size
 /// Effective degrees of freedom of the noise variance from second differences over `continuum_samples`
 /// (Satterthwaite: 2 E[s^2]^2 / var(s^2), for white Gaussian noise, finite samples). The m differences of a run
 /// of consecutive samples are correlated (-2/3 at lag 1, 1/6 at lag 2), so a long run gives 18/35 m = 0.514 m
-/// dof, not m,
-/// and each break between runs adds a little (exact sum in pixel_spectrum.cpp; derived here). With fewer than
-/// 3 differences the noise is the standard deviation about the mean: n - 1 dof.
+/// dof, not m, and each break between runs adds a little (exact sum in MakeContinuumRuns, derived there). With
+/// fewer than 3 differences the noise is the standard deviation about the mean: n - 1 dof.
 double NoiseDegreesOfFreedom(const std::vector<std::size_t>& continuum_samples);
 
 /// Continuum level and noise from the given samples. `given_noise_rel` > 0 overrides the measured noise
